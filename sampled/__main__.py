@@ -1,0 +1,5 @@
+"""Allow ``python -m sampled``."""
+
+from sampled.cli import main
+
+raise SystemExit(main())

@@ -1,0 +1,74 @@
+"""The ``sampled`` command line: parse arguments, call one library function, render.
+
+Exit status: 0 the loop (or polynomial) is stable and meets its requirements, 1 it does not,
+2 bad input. Every :class:`sampled.errors.SampledError` becomes one line on stderr.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from sampled import __version__
+from sampled.errors import SampledError
+
+#: Command modules under ``sampled.commands``, in the order ``--help`` lists them.
+COMMANDS: tuple[str, ...] = (
+    "table",
+)
+
+EXIT_BAD_INPUT = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors in one line with exit status 2."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="sampled",
+        description="Stability, margins and sample-period limits of digital control loops.",
+        epilog="Verdicts hold for the linear model given; verify on hardware with protective limits.",
+    )
+    parser.add_argument("--version", action="version", version=f"sampled {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in COMMANDS:
+        module = importlib.import_module(f"sampled.commands.{name.replace('-', '_')}")
+        doc = (module.__doc__ or "").strip().splitlines()
+        help_text = doc[0] if doc else name
+        command = sub.add_parser(
+            name,
+            help=help_text,
+            description=(module.__doc__ or help_text).strip(),
+            formatter_class=argparse.RawDescriptionHelpFormatter,
+        )
+        module.add_arguments(command)
+        command.set_defaults(_run=module.run)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the console script; returns the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if getattr(args, "_run", None) is None:
+        parser.print_help(sys.stderr)
+        return EXIT_BAD_INPUT
+    try:
+        return int(args._run(args))
+    except SampledError as exc:
+        message = " ".join(str(exc).split())
+        print(f"sampled {args.command}: error: {message}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("sampled: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    raise SystemExit(main())
