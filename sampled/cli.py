@@ -65,6 +65,13 @@ def main(argv: Sequence[str] | None = None) -> int:
         message = " ".join(str(exc).split())
         print(f"sampled {args.command}: error: {message}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except BrokenPipeError:
+        # The reader (head, less) went away; exit quietly as command-line tools do.
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
     except KeyboardInterrupt:
         print("sampled: interrupted", file=sys.stderr)
         return 130

@@ -159,10 +159,17 @@ def entry_text(x: Entry, digits: int = 12) -> str:
     """Short text of an entry: an exact short decimal, a small ratio ``5/3``, else ``digits`` figures."""
     if isinstance(x, Eps):
         return str(x)
+    d = x.denominator
+    while d % 2 == 0:
+        d //= 2
+    while d % 5 == 0:
+        d //= 5
     text = P.format_number(x)
-    if ("e" in text or len(text) > 14) and abs(x.numerator) < 10**6 and x.denominator < 10**6:
+    if d == 1 and len(text) <= 16:
+        return text
+    if abs(x.numerator) < 10**6 and x.denominator < 10**6:
         return f"{x.numerator}/{x.denominator}"
-    return P.format_number(x, digits) if len(text) > 14 else text
+    return P.format_number(x, digits)
 
 
 # ---- the array ----------------------------------------------------------------------------------
