@@ -1,0 +1,185 @@
+"""The Jury stability table in exact rational arithmetic.
+
+For ``P(z) = a_n z^n + a_{n-1} z^{n-1} + ... + a_0`` with ``a_n > 0`` the table has rows
+
+    row 1:  a_0      a_1      ...  a_n
+    row 2:  a_n      a_{n-1}  ...  a_0
+    row 3:  b_0      b_1      ...  b_{n-1}         b_k = a_0 a_k - a_n a_{n-k}
+    row 4:  b_{n-1}  b_{n-2}  ...  b_0
+    row 5:  c_0      ...      c_{n-2}              c_k = b_0 b_k - b_{n-1} b_{n-1-k}
+    ...
+    last :  q_0      q_1      q_2
+
+and all roots lie strictly inside the unit circle exactly when
+
+    P(1) > 0,  (-1)^n P(-1) > 0,  |a_0| < a_n,  |b_0| > |b_{n-1}|,  |c_0| > |c_{n-2}|, ...,  |q_0| > |q_2|.
+
+References
+----------
+Jury, E. I., "Theory and Application of the z-Transform Method", Wiley, 1964, chapter 3.
+Kuo, B. C., "Digital Control Systems", 2nd ed., Saunders, 1992, section on the Jury stability
+test (the notation above).
+Ogata, K., "Discrete-Time Control Systems", 2nd ed., Prentice Hall, 1995, section 4-3 (same
+table with the coefficient indices reversed).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Literal
+
+from sampled import poly
+from sampled.errors import InputError
+from sampled.poly import ExactPoly
+
+JuryWord = Literal["stable", "not stable"]
+
+
+@dataclass(frozen=True)
+class JuryCondition:
+    """One inequality of the Jury test, with the exact numbers compared.
+
+    Attributes
+    ----------
+    name : str
+        The condition as written, e.g. ``"|b_0| > |b_2|"`` or ``"P(1) > 0"``.
+    left, right : Fraction
+        The two sides compared (``right`` is 0 for the sign conditions).
+    holds : bool
+    """
+
+    name: str
+    left: Fraction
+    right: Fraction
+    holds: bool
+
+    def to_dict(self) -> dict[str, object]:
+        return {"condition": self.name, "left": str(self.left), "right": str(self.right), "holds": self.holds}
+
+
+@dataclass(frozen=True)
+class JuryTable:
+    """The Jury table of a real polynomial and its verdict.
+
+    Attributes
+    ----------
+    coefficients : tuple of Fraction
+        The polynomial as used, descending powers, leading coefficient made positive.
+    rows : tuple of tuple of Fraction
+        Every row, the reversed rows included (rows 1, 2, 3, 4, ... of the textbook layout).
+    reduced : bool
+        Rows from the fifth pair on were divided by the positive number ``|first entry of the row
+        pair two above|`` (an exact divisor, as in Bareiss elimination), which keeps the numbers
+        short and changes no condition. ``False`` gives the textbook numbers.
+    conditions : tuple of JuryCondition
+        The necessary conditions (``P(1) > 0``, ``(-1)^n P(-1) > 0``, ``|a_0| < a_n``) then one
+        condition for each derived row pair.
+    first_failure : str or None
+        Name of the first condition (in the order above) that does not hold.
+    verdict : {"stable", "not stable"}
+        ``"stable"`` when every condition holds: all roots strictly inside the unit circle. The
+        table cannot tell marginal from unstable; see ``sampled.criteria.unit_circle``.
+    notes : tuple of str
+    """
+
+    coefficients: ExactPoly
+    rows: tuple[tuple[Fraction, ...], ...]
+    reduced: bool
+    conditions: tuple[JuryCondition, ...]
+    first_failure: str | None
+    verdict: JuryWord
+    notes: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict[str, object]:
+        return {
+            "coefficients": [str(c) for c in self.coefficients],
+            "rows": [[str(x) for x in row] for row in self.rows],
+            "reduced": self.reduced,
+            "conditions": [c.to_dict() for c in self.conditions],
+            "first_failure": self.first_failure,
+            "verdict": self.verdict,
+            "notes": list(self.notes),
+        }
+
+
+_LETTERS = "abcdefghijklmnopqrstuvwxy"
+
+
+def _row_name(index: int) -> str:
+    """Letter of derived row pair ``index`` (0 is the coefficient row ``a``)."""
+    return _LETTERS[index] if index < len(_LETTERS) else f"r{index}"
+
+
+def jury_table(coeffs: Sequence[object], reduced: bool = True) -> JuryTable:
+    """Build the Jury table exactly and decide whether all roots are inside the unit circle.
+
+    Parameters
+    ----------
+    coeffs : sequence of numbers
+        Polynomial in descending powers of z, degree at least 1; read exactly.
+    reduced : bool
+        Divide derived rows by their exact positive divisor to keep numbers short (default); set
+        ``False`` for the textbook entries.
+
+    Returns
+    -------
+    JuryTable
+
+    Raises
+    ------
+    InputError
+        For a polynomial of degree below 1.
+    """
+    p = poly.from_values(list(coeffs), "polynomial")
+    n = poly.degree(p)
+    if n < 1:
+        raise InputError(f"the Jury table needs degree 1 or more, got degree {n}", "polynomial")
+    notes: list[str] = []
+    if p[0] < 0:
+        p = poly.scale(p, Fraction(-1))
+        notes.append("multiplied by -1 to make the leading coefficient positive")
+    asc = tuple(reversed(p))  # asc[k] = a_k
+    conditions: list[JuryCondition] = []
+    p_one = poly.evaluate(p, Fraction(1))
+    p_minus = poly.evaluate(p, Fraction(-1)) * (-1) ** n
+    conditions.append(JuryCondition("P(1) > 0", p_one, Fraction(0), p_one > 0))
+    name_minus = "(-1)^n P(-1) > 0"
+    conditions.append(JuryCondition(name_minus, p_minus, Fraction(0), p_minus > 0))
+    conditions.append(JuryCondition(f"|a_0| < a_{n}", abs(asc[0]), asc[n], abs(asc[0]) < asc[n]))
+
+    # Jury (1964) chapter 3 / Kuo (1992): each row pair from the determinants of the pair above
+    rows: list[tuple[Fraction, ...]] = [asc, tuple(reversed(asc))]
+    pairs: list[tuple[Fraction, ...]] = [asc]
+    while len(pairs[-1]) > 3:
+        r = pairs[-1]
+        m = len(r) - 1
+        new = [r[0] * r[k] - r[m] * r[m - k] for k in range(m)]
+        j = len(pairs)  # index of the new pair
+        if reduced and j >= 3:
+            divisor = abs(pairs[j - 2][0])
+            if divisor != 0:
+                new = [x / divisor for x in new]
+            else:
+                notes.append(f"row {_row_name(j)} not reduced: {_row_name(j - 2)}_0 = 0")
+        row = tuple(new)
+        pairs.append(row)
+        rows.extend([row, tuple(reversed(row))])
+        letter = _row_name(j)
+        last = len(row) - 1
+        conditions.append(
+            JuryCondition(f"|{letter}_0| > |{letter}_{last}|", abs(row[0]), abs(row[last]), abs(row[0]) > abs(row[last]))
+        )
+    # the textbook layout prints the last (three-entry) row once: 2n - 3 rows for n >= 2
+    rows = rows[: max(2 * n - 3, 1)]
+    first_failure = next((c.name for c in conditions if not c.holds), None)
+    return JuryTable(
+        coefficients=p,
+        rows=tuple(rows),
+        reduced=reduced,
+        conditions=tuple(conditions),
+        first_failure=first_failure,
+        verdict="stable" if first_failure is None else "not stable",
+        notes=tuple(notes),
+    )
