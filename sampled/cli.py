@@ -17,6 +17,7 @@ from sampled.errors import SampledError
 #: Command modules under ``sampled.commands``, in the order ``--help`` lists them.
 COMMANDS: tuple[str, ...] = (
     "table",
+    "schema",
 )
 
 EXIT_BAD_INPUT = 2
