@@ -16,6 +16,7 @@ from sampled.errors import SampledError
 
 #: Command modules under ``sampled.commands``, in the order ``--help`` lists them.
 COMMANDS: tuple[str, ...] = (
+    "discretize",
     "table",
     "schema",
 )
