@@ -448,6 +448,8 @@ def _digital(tbl: dict[str, Any]) -> DigitalController:
             for i, v in enumerate(vals):
                 if v.denominator != 1:
                     raise CaseFileError(f"fixed-point coefficients must be integers, got {v}", f"{w}{key}[{i}]")
+                if key == "a" and i == 0:
+                    continue  # a[0] is the implied unity of the recursion (2^fraction_bits), never stored
                 if not (-lim <= v < lim):
                     raise CaseFileError(f"{int(v)} does not fit a {word}-bit word [{-lim}, {lim - 1}]", f"{w}{key}[{i}]")
         b_raw = tuple(int(v) for v in b)

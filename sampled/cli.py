@@ -16,8 +16,9 @@ from sampled.errors import SampledError
 
 #: Command modules under ``sampled.commands``, in the order ``--help`` lists them.
 COMMANDS: tuple[str, ...] = (
-    "discretize",
+    "check",
     "table",
+    "discretize",
     "schema",
 )
 

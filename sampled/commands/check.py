@@ -1,0 +1,42 @@
+"""Judge one loop as it will run: verdicts, margins, what going digital cost, requirements.
+
+Examples:
+  sampled check cases/kiln_heater_plc.toml
+  sampled check cases/drone_motor_speed.toml --period 250us --json
+
+Exit status: 0 the loop as implemented is stable and meets every requirement, 1 it does not,
+2 bad input.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from sampled.casefile import load_case
+from sampled.commands.common import SAFETY_CAUTION, print_json
+from sampled.commands.render import render_assessment
+from sampled.loop import assess
+from sampled.units import parse_period
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("case", help="case file (TOML)")
+    parser.add_argument("--period", help="judge at this period instead of the case's ('250us', '4 kHz')")
+    parser.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def run(args: argparse.Namespace) -> int:
+    spec = load_case(args.case)
+    period = parse_period(args.period, "--period") if args.period is not None else None
+    if period is not None:
+        spec = spec.with_period(period)
+    result = assess(spec)
+    if args.json:
+        out = result.to_dict()
+        out["caution"] = SAFETY_CAUTION
+        print_json(out)
+    else:
+        print(render_assessment(result))
+        print(SAFETY_CAUTION, file=sys.stdout)
+    return 0 if result.passed else 1
