@@ -20,6 +20,12 @@ from sampled.errors import ExpressionError
 #: Largest exponent and largest polynomial degree an expression may produce.
 MAX_EXPONENT = 64
 MAX_DEGREE = 100
+#: Largest power of ten a number may be written with (``1e1000``); beyond it exact reading would
+#: build integers of billions of digits (``1e999999999`` never finishes).
+MAX_DECIMAL_EXPONENT = 1000
+#: Largest size [bits] of any exact coefficient an expression may build; nested powers such as
+#: ``((2^64)^64)^64`` would otherwise grow without bound.
+MAX_COEFFICIENT_BITS = 1 << 16
 
 _TOKEN = re.compile(
     r"\s*(?:(?P<number>(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)|(?P<name>[A-Za-z_][A-Za-z_0-9]*)"
@@ -185,9 +191,15 @@ class _Parser:
         one = _const(Fraction(1))
         if kind == "number":
             try:
-                return _const(Fraction(Decimal(text))), one
+                d = Decimal(text)
             except InvalidOperation:  # pragma: no cover - the token pattern admits only decimals
                 raise self.fail(f"cannot read number {text!r}") from None
+            if d and abs(d.adjusted()) > MAX_DECIMAL_EXPONENT:
+                raise self.fail(
+                    f"number {text!r} is out of range (magnitude between 1e-{MAX_DECIMAL_EXPONENT} "
+                    f"and 1e{MAX_DECIMAL_EXPONENT} allowed)"
+                )
+            return _const(Fraction(d)), one
         if kind == "name":
             if text == self.variable:
                 return {(1, 0): Fraction(1)}, one
@@ -212,6 +224,9 @@ class _Parser:
     def _check_size(self, num: _Poly, den: _Poly) -> None:
         if _deg(num) > MAX_DEGREE or _deg(den) > MAX_DEGREE:
             raise self.fail(f"expression degree exceeds {MAX_DEGREE}")
+        for c in (*num.values(), *den.values()):
+            if max(c.numerator.bit_length(), c.denominator.bit_length()) > MAX_COEFFICIENT_BITS:
+                raise self.fail(f"a coefficient exceeds {MAX_COEFFICIENT_BITS} bits (numbers too large)")
 
 
 def _univariate(d: _Poly, param_power: int = 0) -> P.ExactPoly:

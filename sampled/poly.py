@@ -21,6 +21,8 @@ from sampled.errors import InputError
 ExactPoly = tuple[Fraction, ...]
 ZERO: ExactPoly = (Fraction(0),)
 ONE: ExactPoly = (Fraction(1),)
+#: Largest power of ten a number given as text may carry (exact reading builds 10**exponent).
+MAX_DECIMAL_EXPONENT = 1000
 
 
 def exact(value: object, where: str | None = None) -> Fraction:
@@ -49,6 +51,13 @@ def exact(value: object, where: str | None = None) -> Fraction:
             raise InputError(f"expected a number, got {value!r}", where) from None
         if not d.is_finite():
             raise InputError(f"expected a finite number, got {value!r}", where)
+        if d and abs(d.adjusted()) > MAX_DECIMAL_EXPONENT:
+            # Exact reading of 1e999999999 would build a billion-digit integer.
+            raise InputError(
+                f"number {value!r} is out of range (magnitude between 1e-{MAX_DECIMAL_EXPONENT} and "
+                f"1e{MAX_DECIMAL_EXPONENT} allowed)",
+                where,
+            )
         return Fraction(d)
     raise InputError(f"expected a number, got {value!r}", where)
 
