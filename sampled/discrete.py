@@ -95,12 +95,6 @@ def _fmt(z: complex) -> str:
     return f"{z.real:.10g}{'+' if z.imag >= 0 else '-'}{abs(z.imag):.10g}j"
 
 
-def _trim_small(c: np.ndarray, scale: float) -> np.ndarray:
-    """Set coefficients that are rounding residue relative to ``scale`` to exact zero."""
-    tiny = 64 * np.finfo(float).eps * scale
-    return np.where(np.abs(c) <= tiny, 0.0, c)
-
-
 @dataclass(frozen=True, eq=False)
 class DiscreteSystem:
     """A SISO discrete system in shift and delta form, with a whole-sample input delay.
@@ -317,13 +311,18 @@ class DiscreteSystem:
         n = self.order
         if n == 0:
             return np.array([float(self.d[0, 0])]), np.array([1.0])
-        num, den = scipy.signal.ss2tf(self.a_delta, self.b_delta, self.c, self.d)
-        num = np.atleast_1d(np.asarray(num[0], dtype=float))
-        den = np.asarray(den, dtype=float)
-        # Denominator from the eigenvalues, as used for the poles.
+        # C adj(gamma I - A) B = det(gamma I - A + B C) - det(gamma I - A); D enters separately
+        # (scipy's ss2tf folds it in as (D - 1) det(...), which cancels digits when D is small).
         lam = scipy.linalg.eigvals(self.a_delta)
         den = np.real(np.poly(lam))
-        num = _trim_small(num, max(float(np.max(np.abs(num))), 1e-300))
+        closed = self.a_delta - self.b_delta @ self.c
+        strictly = np.real(np.poly(closed)) - den
+        # Coefficient k of a characteristic polynomial carries rounding of order
+        # eps C(n, k) rho^k (rho: matrix norm); below that the difference is structurally zero.
+        rho = max(float(np.linalg.norm(self.a_delta, 2)), float(np.linalg.norm(closed, 2)))
+        noise = np.array([16 * n * np.finfo(float).eps * comb(n, k) * rho**k for k in range(n + 1)])
+        strictly = np.where(np.abs(strictly) <= noise, 0.0, strictly)
+        num = strictly + self.d[0, 0] * den
         return num, den
 
     def transfer(self) -> tuple[np.ndarray, np.ndarray]:
@@ -339,8 +338,6 @@ class DiscreteSystem:
         num_d = np.concatenate([np.zeros(n + 1 - num_d.size), num_d])
         num_z = _delta_to_shift(num_d, self.period_s)
         den_z = _delta_to_shift(den_d, self.period_s)
-        num_z = _trim_small(num_z, max(float(np.max(np.abs(num_z))), 1e-300))
-        den_z = _trim_small(den_z, float(np.max(np.abs(den_z))))
         den_z = np.concatenate([den_z, np.zeros(self.delay_samples)])
         num_z = np.trim_zeros(num_z, "f")
         if num_z.size == 0:
@@ -512,9 +509,15 @@ class DiscreteSystem:
 
 
 def _delta_to_shift(p: np.ndarray, period_s: float) -> np.ndarray:
-    """``T^n p((z - 1)/T)`` in descending powers of z, for ``p`` of degree ``n`` (length ``n+1``)."""
+    """``T^n p((z - 1)/T)`` in descending powers of z, for ``p`` of degree ``n`` (length ``n+1``).
+
+    A coefficient whose value is within the rounding bound of its own sum (``8 (n+1) eps`` times the
+    sum of the magnitudes of its terms) is set to exact zero: it is indistinguishable from zero, and
+    structural zeros (poles at z = 0 from delays) should print as 0.
+    """
     n = p.size - 1
     out = np.zeros(n + 1)
+    bound = np.zeros(n + 1)
     for i, coef in enumerate(p):
         k = n - i  # power of gamma
         if coef == 0:
@@ -522,8 +525,11 @@ def _delta_to_shift(p: np.ndarray, period_s: float) -> np.ndarray:
         scale = coef * period_s ** (n - k)
         # (z - 1)^k = sum_j C(k, j) z^j (-1)^(k-j); place in descending order of length n+1
         for j in range(k + 1):
-            out[n - j] += scale * comb(k, j) * (-1.0) ** (k - j)
-    return out
+            term = scale * comb(k, j) * (-1.0) ** (k - j)
+            out[n - j] += term
+            bound[n - j] += abs(term)
+    tiny = 8 * (n + 1) * np.finfo(float).eps * bound
+    return np.where(np.abs(out) <= tiny, 0.0, out)
 
 
 def fmt_complex(z: complex) -> str:

@@ -242,14 +242,15 @@ def _rational_mapping(
     eye = np.eye(n)
     m = eye - weight * h * a
     if n:
-        lu = scipy.linalg.lu_factor(m, check_finite=True)
-        if np.min(np.abs(np.diag(lu[0]))) <= 1e-13 * max(1.0, float(np.max(np.abs(m)))):
+        sv = np.linalg.svd(m, compute_uv=False)
+        if sv[-1] <= 1e-13 * max(1.0, float(sv[0])):
             pole = 1.0 / (weight * h) if weight else math.inf
             raise InputError(
                 f"the {label} mapping sends a pole at s = {pole:.6g} rad/s to z = infinity; "
                 "choose another period",
                 "period",
             )
+        lu = scipy.linalg.lu_factor(m, check_finite=True)
         phi = scipy.linalg.lu_solve(lu, eye + (1.0 - weight) * h * a)
         minv_a = scipy.linalg.lu_solve(lu, a)
         minv_b = scipy.linalg.lu_solve(lu, b)
