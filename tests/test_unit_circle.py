@@ -247,6 +247,14 @@ def test_float_verdicts_flag_the_boundary() -> None:
     assert bool(res.stable[1]) and not bool(res.undecided[1])
 
 
+def test_float_verdicts_overflow_is_undecided_not_a_warning() -> None:
+    """Coefficients spanning 600 decades overflow in doubles: the row is marked undecided, and no
+    RuntimeWarning escapes (warnings are errors in this test run)."""
+    res = float_circle_verdicts(np.array([[1e-300, 1e300, 1.0, 1.0], [1.0, 0.0, 0.0, 0.25]]))
+    assert bool(res.undecided[0])
+    assert bool(res.stable[1]) and int(res.inside[1]) == 3
+
+
 def test_float_verdicts_refuse_bad_arrays() -> None:
     with pytest.raises(InputError, match="coeffs"):
         float_circle_verdicts(np.array([[0.0, 1.0]]))

@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 
 from sampled import poly
 from sampled.criteria.roots import precise_roots
-from sampled.criteria.unit_circle import circle_counts
+from sampled.criteria.unit_circle import circle_counts, mobius_transform
 from sampled.criteria.wplane import from_w, to_scaled_w, to_w, wplane_routh
 from sampled.errors import InputError
 
@@ -111,3 +111,13 @@ def test_to_dict_keys() -> None:
     assert d["counts"] == {"inside": 1, "on": 1, "outside": 0}
     assert d["verdict"] == "marginal"
     assert all(isinstance(x, str) for row in d["routh"] for x in row)
+
+
+fracs = st.fractions(min_value=-5, max_value=5, max_denominator=9)
+
+
+@settings(derandomize=True, max_examples=80, deadline=None)
+@given(st.lists(fracs, min_size=1, max_size=9), st.tuples(fracs, fracs), st.tuples(fracs, fracs))
+def test_integer_mobius_equals_poly_compose_mobius(p: list[Fraction], a: tuple[Fraction, Fraction], b: tuple[Fraction, Fraction]) -> None:
+    """The fast integer substitution used by the maps gives exactly sampled.poly.compose_mobius."""
+    assert mobius_transform(tuple(p), a, b) == poly.compose_mobius(tuple(p), a, b)

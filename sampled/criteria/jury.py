@@ -31,6 +31,7 @@ from fractions import Fraction
 from typing import Literal
 
 from sampled import poly
+from sampled.criteria.unit_circle import integer_form
 from sampled.errors import InputError
 from sampled.poly import ExactPoly
 
@@ -149,28 +150,44 @@ def jury_table(coeffs: Sequence[object], reduced: bool = True) -> JuryTable:
     conditions.append(JuryCondition(name_minus, p_minus, Fraction(0), p_minus > 0))
     conditions.append(JuryCondition(f"|a_0| < a_{n}", abs(asc[0]), asc[n], abs(asc[0]) < asc[n]))
 
+    # The table is built on the integer polynomial scale * P (exact, fast); a row that is
+    # homogeneous of degree d in the coefficients is divided by scale^d at the end.
+    scale = Fraction(integer_form(p)[0]) / p[0]
+    work: list[int | Fraction] = [c * scale for c in asc]
+    work = [int(x) if isinstance(x, Fraction) and x.denominator == 1 else x for x in work]
     # Jury (1964) chapter 3 / Kuo (1992): each row pair from the determinants of the pair above
-    rows: list[tuple[Fraction, ...]] = [asc, tuple(reversed(asc))]
-    pairs: list[tuple[Fraction, ...]] = [asc]
+    pairs: list[list[int | Fraction]] = [work]
+    degrees = [1]
     while len(pairs[-1]) > 3:
         r = pairs[-1]
         m = len(r) - 1
         new = [r[0] * r[k] - r[m] * r[m - k] for k in range(m)]
         j = len(pairs)  # index of the new pair
+        deg = 2 * degrees[-1]
         if reduced and j >= 3:
             divisor = abs(pairs[j - 2][0])
             if divisor != 0:
-                new = [x / divisor for x in new]
+                # exact in integers (a Bareiss-type identity); Fractions otherwise
+                if isinstance(divisor, int) and all(isinstance(x, int) and x % divisor == 0 for x in new):
+                    new = [x // divisor for x in new]  # type: ignore[operator]
+                else:
+                    new = [Fraction(x) / divisor for x in new]
+                deg -= degrees[j - 2]
             else:
                 notes.append(f"row {_row_name(j)} not reduced: {_row_name(j - 2)}_0 = 0")
-        row = tuple(new)
-        pairs.append(row)
+        pairs.append(new)
+        degrees.append(deg)
+    rows: list[tuple[Fraction, ...]] = []
+    for j, (r, deg) in enumerate(zip(pairs, degrees)):
+        factor = scale**deg
+        row = tuple(Fraction(x) / factor for x in r) if j else asc
         rows.extend([row, tuple(reversed(row))])
-        letter = _row_name(j)
-        last = len(row) - 1
-        conditions.append(
-            JuryCondition(f"|{letter}_0| > |{letter}_{last}|", abs(row[0]), abs(row[last]), abs(row[0]) > abs(row[last]))
-        )
+        if j:
+            letter = _row_name(j)
+            last = len(row) - 1
+            conditions.append(
+                JuryCondition(f"|{letter}_0| > |{letter}_{last}|", abs(row[0]), abs(row[last]), abs(row[0]) > abs(row[last]))
+            )
     # the textbook layout prints the last (three-entry) row once: 2n - 3 rows for n >= 2
     rows = rows[: max(2 * n - 3, 1)]
     first_failure = next((c.name for c in conditions if not c.holds), None)

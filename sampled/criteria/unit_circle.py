@@ -27,6 +27,7 @@ polynomials", Proc. IEEE 72(9), 1984 (the reciprocal-polynomial view of singular
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from fractions import Fraction
@@ -217,6 +218,9 @@ class _Boundary:
 
 def _boundary_part(p: ExactPoly) -> _Boundary:
     """On-circle roots of ``p`` (``p(0) != 0``) from the self-inversive factor ``gcd(p, p*)``."""
+    ints = integer_form(p)
+    if _coprime_mod_prime(ints, ints[::-1]):
+        return _Boundary((Fraction(1),), 0, False, 0, 0)
     d = poly.gcd(p, reciprocal(p))
     if poly.degree(d) < 1:
         return _Boundary((Fraction(1),), 0, False, 0, 0)
@@ -237,6 +241,52 @@ def _boundary_part(p: ExactPoly) -> _Boundary:
     return _Boundary(d, on, repeated, at_one, at_minus_one)
 
 
+def integer_form(p: Sequence[Fraction]) -> list[int]:
+    """The primitive integer polynomial with the roots of ``p``: denominators cleared, content removed."""
+    lcm = 1
+    for c in p:
+        lcm = lcm * c.denominator // math.gcd(lcm, c.denominator)
+    ints = [int(c * lcm) for c in p]
+    content = math.gcd(*ints)
+    if content > 1:
+        ints = [x // content for x in ints]
+    return ints
+
+
+#: A prime for the modular gcd test (2^61 - 1).
+_PRIME = (1 << 61) - 1
+
+
+def _coprime_mod_prime(a: list[int], b: list[int]) -> bool:
+    """True when ``a`` and ``b`` (integer, descending) are proven coprime over Q by their gcd modulo a prime.
+
+    Degrees must survive the reduction (leading coefficients not divisible by the prime); then
+    ``deg gcd_Q <= deg gcd_mod``, so a constant modular gcd proves a constant rational gcd. False
+    means "not proven" (the caller then computes the exact gcd).
+    """
+    q = _PRIME
+    if a[0] % q == 0 or b[0] % q == 0:
+        return False
+    x = [c % q for c in a]
+    y = [c % q for c in b]
+    while len(y) > 1 or (y and y[0] != 0):
+        # remainder of x by y, modulo q
+        inv = pow(y[0], q - 2, q)
+        x = list(x)
+        for i in range(len(x) - len(y) + 1):
+            f = x[i] * inv % q
+            if f:
+                for j in range(1, len(y)):
+                    x[i + j] = (x[i + j] - f * y[j]) % q
+        r = x[len(x) - len(y) + 1 :] if len(x) >= len(y) else x
+        while r and r[0] == 0:
+            r = r[1:]
+        x, y = y, r
+        if not y:
+            break
+    return len(x) == 1
+
+
 def _schur_cohn_inside(p: ExactPoly) -> int | None:
     """Roots inside the circle of ``p`` (no roots on the circle) by the Schur-Cohn recursion.
 
@@ -245,9 +295,11 @@ def _schur_cohn_inside(p: ExactPoly) -> int | None:
     Each step forms ``T p = a_n p - a_0 p*`` (which vanishes at z = 0) and divides by z. If
     ``delta = a_n^2 - a_0^2 > 0``, Rouche's theorem on ``|z| = 1`` gives ``T p`` as many roots inside
     as ``p``; if ``delta < 0`` as many as ``p*``, that is ``n - inside(p)``. (Henrici 1974, 6.8.)
+    The recursion runs on integers; each new polynomial is divided by its content (a positive
+    constant, which changes no count).
     """
     steps: list[tuple[int, bool]] = []  # (degree, delta > 0)
-    cur = list(p)
+    cur = integer_form(p)
     while len(cur) > 1:
         n = len(cur) - 1
         an, a0 = cur[0], cur[-1]
@@ -255,13 +307,57 @@ def _schur_cohn_inside(p: ExactPoly) -> int | None:
         if delta == 0:
             return None
         nxt = [an * c - a0 * r for c, r in zip(cur, reversed(cur))][:-1]
-        # leading entry is delta; normalise to keep the rationals short
-        cur = [c / delta for c in nxt]
+        content = math.gcd(*nxt)
+        cur = [c // content for c in nxt] if content > 1 else nxt
         steps.append((n, delta > 0))
     inside = 0
     for n, positive in reversed(steps):
         inside = inside + 1 if positive else n - 1 - inside
     return inside
+
+
+def _conv(a: list[int], b: list[int]) -> list[int]:
+    out = [0] * (len(a) + len(b) - 1)
+    for i, x in enumerate(a):
+        if x:
+            for j, y in enumerate(b):
+                out[i + j] += x * y
+    return out
+
+
+def mobius_transform(p: Sequence[Fraction], a: Sequence[Fraction], b: Sequence[Fraction]) -> ExactPoly:
+    """``b(x)^n p(a(x)/b(x))`` for linear ``a``, ``b`` (n = len(p) - 1), exactly.
+
+    Same result as :func:`sampled.poly.compose_mobius`, computed in integers (denominators cleared
+    once), which is many times faster for degree 20.
+    """
+    n = len(p) - 1
+    if n < 0:
+        return poly.ZERO
+    lcm_p = 1
+    for c in p:
+        lcm_p = lcm_p * c.denominator // math.gcd(lcm_p, c.denominator)
+    lcm_ab = 1
+    for c in (*a, *b):
+        lcm_ab = lcm_ab * Fraction(c).denominator // math.gcd(lcm_ab, Fraction(c).denominator)
+    ints = [int(c * lcm_p) for c in p]
+    ai = [int(Fraction(c) * lcm_ab) for c in a]
+    bi = [int(Fraction(c) * lcm_ab) for c in b]
+    a_pow: list[list[int]] = [[1]]
+    b_pow: list[list[int]] = [[1]]
+    for _ in range(n):
+        a_pow.append(_conv(a_pow[-1], ai))
+        b_pow.append(_conv(b_pow[-1], bi))
+    width = max(len(a_pow[n - i]) + len(b_pow[i]) - 1 for i in range(n + 1))
+    out = [0] * width
+    for i, ci in enumerate(ints):
+        if ci:
+            term = _conv(a_pow[n - i], b_pow[i])
+            shift = width - len(term)
+            for k, x in enumerate(term):
+                out[shift + k] += ci * x
+    denom = lcm_p * lcm_ab**n
+    return poly.trim(Fraction(x, denom) for x in out)
 
 
 def _inside_no_boundary(p: ExactPoly, notes: list[str]) -> int:
@@ -271,12 +367,10 @@ def _inside_no_boundary(p: ExactPoly, notes: list[str]) -> int:
     got = _schur_cohn_inside(p)
     if got is not None:
         return got
-    m = poly.degree(p)
     for c in _SHIFTS:
         # g(u) = (1 + c u)^m p((u + c) / (1 + c u)); u = (z - c)/(1 - c z) maps the disk onto itself.
-        g = poly.compose_mobius(p, (Fraction(1), c), (c, Fraction(1)))
-        # roots of p at z = 1/c (outside) go to u = infinity: g loses degree, not inside roots
-        got = _schur_cohn_inside(g)
+        # Roots of p at z = 1/c (outside) go to u = infinity: g loses degree, not inside roots.
+        got = _schur_cohn_inside(mobius_transform(p, (Fraction(1), c), (c, Fraction(1))))
         if got is not None:
             notes.append(f"singular Schur-Cohn step avoided by the disk map z -> (z + {c})/(1 + {c} z)")
             return got
@@ -384,25 +478,36 @@ def float_circle_verdicts(coeffs: np.ndarray, tolerance: float = 1e-9) -> FloatC
     if np.any(a[:, 0] == 0):
         raise InputError("every leading coefficient must be nonzero", "coeffs")
     rows = a.shape[0]
-    inside_steps = []
     margin = np.full(rows, np.inf)
-    stable = np.ones(rows, dtype=bool)
-    cur = a / a[:, :1]
-    while cur.shape[1] > 1:
-        k = cur[:, -1]
-        gap = 1.0 - np.abs(k)
-        margin = np.minimum(margin, gap)
-        stable &= gap > 0
-        inside_steps.append((cur.shape[1] - 1, (1.0 - k * k) > 0))
-        denom = 1.0 - k * k
-        safe = np.where(denom == 0.0, 1.0, denom)
-        nxt = cur - k[:, None] * cur[:, ::-1]
-        cur = nxt[:, :-1] / safe[:, None]
+    inside_steps: list[tuple[int, np.ndarray]] = []
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore", under="ignore"):
+        # one coefficient a row of ``cur`` (shape (n + 1, m)): each step works on contiguous vectors
+        cur = (a / a[:, :1]).T.copy()
+        cur, margin, inside_steps = _reflect_all(cur, margin, inside_steps)
+    stable = margin > 0
     inside = np.zeros(rows, dtype=int)
     for n, positive in reversed(inside_steps):
         inside = np.where(positive, inside + 1, n - 1 - inside)
-    undecided = np.abs(margin) < tolerance
+    # a step with |k| within rounding of one (or an overflow to nan) leaves the row undecided
+    undecided = ~(np.abs(margin) >= tolerance)
     return FloatCircleVerdicts(stable=stable, inside=inside, min_margin=margin, undecided=undecided)
+
+
+def _reflect_all(
+    cur: np.ndarray, margin: np.ndarray, inside_steps: list[tuple[int, np.ndarray]]
+) -> tuple[np.ndarray, np.ndarray, list[tuple[int, np.ndarray]]]:
+    """The Schur-Cohn steps of :func:`float_circle_verdicts` on the transposed coefficient array."""
+    while cur.shape[0] > 1:
+        k = cur[-1].copy()  # reflection coefficient a_0 / a_n (a_n = 1)
+        np.minimum(margin, 1.0 - np.abs(k), out=margin)
+        denom = (1.0 - k) * (1.0 + k)
+        inside_steps.append((cur.shape[0] - 1, denom > 0))
+        denom[denom == 0.0] = 1.0
+        # (p - k p*) / z, normalised to leading coefficient one
+        nxt = cur[:-1] - k * cur[:0:-1]
+        nxt *= 1.0 / denom
+        cur = nxt
+    return cur, margin, inside_steps
 
 
 def spectral_radii(coeffs: np.ndarray) -> np.ndarray:

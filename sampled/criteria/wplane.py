@@ -27,7 +27,7 @@ from fractions import Fraction
 
 from sampled import poly
 from sampled.criteria.routh import RouthArray, routh_array
-from sampled.criteria.unit_circle import StabilityWord, verdict_from_counts
+from sampled.criteria.unit_circle import StabilityWord, mobius_transform, verdict_from_counts
 from sampled.errors import InputError
 from sampled.poly import ExactPoly
 
@@ -35,7 +35,7 @@ from sampled.poly import ExactPoly
 def to_w(coeffs: Sequence[object]) -> ExactPoly:
     """``Q(w) = (1 - w)^n P((1 + w)/(1 - w))`` for ``P`` of degree n, exactly (descending powers of w)."""
     p = poly.from_values(list(coeffs), "polynomial")
-    return poly.compose_mobius(p, (Fraction(1), Fraction(1)), (Fraction(-1), Fraction(1)))
+    return mobius_transform(p, (Fraction(1), Fraction(1)), (Fraction(-1), Fraction(1)))
 
 
 def to_scaled_w(coeffs: Sequence[object], period_s: object) -> ExactPoly:
@@ -53,7 +53,7 @@ def to_scaled_w(coeffs: Sequence[object], period_s: object) -> ExactPoly:
     if t <= 0:
         raise InputError(f"the sample period must be positive, got {period_s!r}", "period_s")
     half = t / 2
-    return poly.compose_mobius(p, (half, Fraction(1)), (-half, Fraction(1)))
+    return mobius_transform(p, (half, Fraction(1)), (-half, Fraction(1)))
 
 
 def from_w(coeffs: Sequence[object], degree: int | None = None) -> ExactPoly:
@@ -67,7 +67,7 @@ def from_w(coeffs: Sequence[object], degree: int | None = None) -> ExactPoly:
     if n < poly.degree(q):
         raise InputError(f"degree {n} is below the degree of Q, {poly.degree(q)}", "degree")
     padded = tuple([Fraction(0)] * (n - poly.degree(q))) + q
-    return poly.compose_mobius(padded, (Fraction(1), Fraction(-1)), (Fraction(1), Fraction(1)))
+    return mobius_transform(padded, (Fraction(1), Fraction(-1)), (Fraction(1), Fraction(1)))
 
 
 @dataclass(frozen=True)
