@@ -221,9 +221,13 @@ def test_tustin_round_trip_recovers_continuous_poles(system: ContinuousSystem, p
     """Round trip: Tustin maps p to z = (1 + pT/2)/(1 - pT/2); the inverse s = (2/T)(z-1)/(z+1)
     = lambda / (1 + lambda T/2) in delta terms must give back the continuous poles."""
     lam = tustin(system, period).poles().delta
-    back = np.sort_complex(lam / (1 + lam * period / 2))
-    ref = np.sort_complex(system.poles())
-    np.testing.assert_allclose(back, ref, rtol=1e-9, atol=1e-9)
+    back = lam / (1 + lam * period / 2)
+    ref = system.poles()
+    assert back.size == ref.size
+    for r in ref:  # matched by nearest: sorting complex values is fragile at rounding level
+        assert np.min(np.abs(back - r)) <= 1e-6 * max(1.0, abs(r))  # double poles move by sqrt(eps)
+    for b in back:
+        assert np.min(np.abs(ref - b)) <= 1e-6 * max(1.0, abs(b))
 
 
 # ---- delays ------------------------------------------------------------------------------------------
