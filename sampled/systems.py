@@ -74,7 +74,7 @@ def parse_complex(value: object, where: str | None = None) -> complex:
     """A root given as a number, as ``[re, im]`` or as text ``"-1+2j"``."""
     if isinstance(value, bool):
         raise InputError(f"expected a number, got {value!r}", where)
-    if isinstance(value, (int, float)):
+    if isinstance(value, (int, float, complex, np.integer, np.floating, np.complexfloating)):
         x = complex(value)
     elif isinstance(value, (list, tuple)) and len(value) == 2 and all(
         isinstance(v, (int, float)) and not isinstance(v, bool) for v in value
