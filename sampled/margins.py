@@ -54,7 +54,7 @@ from typing import Any
 import numpy as np
 import scipy.optimize
 
-from sampled.errors import InputError
+from sampled.errors import InputError, NumericalError
 from sampled.frequency import (
     Domain,
     LoopGain,
@@ -77,6 +77,17 @@ _AXIS_TOL = 1e-6
 _RTOL = 1e-13
 #: Changes below this (in log magnitude or in turns of phase) are rounding noise.
 _DEGENERATE = 1e-12
+#: Turns of pure-delay phase searched beyond which a continuous band is cut (see analysis_band).
+MAX_DELAY_TURNS = 250
+#: More crossings than this in one band means the response is noise, not a loop.
+MAX_CROSSINGS = 2000
+_IRREGULAR = (
+    "the loop's frequency response cannot be resolved between {a:.6g} and {b:.6g} rad/s (it looks "
+    "like rounding noise; at fast sampling give the loop in state-space delta form instead of "
+    "polynomial coefficients in z)"
+)
+#: A phase margin smaller than this [rad] is zero (the loop is on the boundary).
+_ZERO_PHASE_RAD = 1e-10
 #: Decades added beyond the slowest / fastest break frequency.
 _BAND_DECADES = 3.0
 
@@ -226,6 +237,9 @@ def analysis_band(loop: LoopGain) -> tuple[float, float]:
     ``10^-3`` times the slowest break (equivalent roots ``log(z)/T``) up to the Nyquist frequency
     ``pi/T``, beyond which the response repeats. Either end is then pushed outward when the
     asymptotic slope of ``|L|`` shows a gain crossover lies beyond it (integrators, high gains).
+    A continuous loop with a transport delay has a phase crossover for every turn of the delay
+    phase, without end; its band is cut after :data:`MAX_DELAY_TURNS` turns (``w*delay =
+    2*pi*MAX_DELAY_TURNS``) unless a gain crossover lies further out.
 
     Returns
     -------
@@ -265,7 +279,26 @@ def analysis_band(loop: LoopGain) -> tuple[float, float]:
                 high = min(cross * factor, 1e300)
             else:
                 break
+        if loop.delay_s > 0:
+            high = _delay_cap(loop, high)
     return low, high
+
+
+def _delay_cap(loop: LoopGain, high: float) -> float:
+    """Limit the band of a delayed continuous loop to MAX_DELAY_TURNS turns of delay phase.
+
+    Each turn brings a phase crossover, of ever smaller |L| for a strictly proper loop; beyond the
+    cap only gain crossovers matter, so the band still reaches 10 times the last one.
+    """
+    cap = MAX_DELAY_TURNS * 2 * math.pi / loop.delay_s
+    if high <= cap:
+        return high
+    probe = np.geomspace(cap, high, 2000)
+    g = _log_mag(rational_response(loop, probe))
+    change = np.flatnonzero(np.isfinite(g[:-1]) & np.isfinite(g[1:]) & (g[:-1] * g[1:] <= 0))
+    if change.size == 0:
+        return cap
+    return min(high, max(cap, float(probe[change[-1] + 1]) * 10.0))
 
 
 def _axis_frequencies(loop: LoopGain, low: float, high: float) -> list[tuple[float, float]]:
@@ -316,6 +349,14 @@ def _needs_split(w: np.ndarray, lr: np.ndarray, tau: float) -> np.ndarray:
 
 
 def _segment_grid(loop: LoopGain, a: float, b: float, budget: int) -> tuple[np.ndarray, np.ndarray]:
+    """Log grid on [a, b] refined by bisection until the response is resolved.
+
+    Raises
+    ------
+    NumericalError
+        If the point budget runs out first: the response is irregular at every scale, which is
+        what rounding noise looks like (typically polynomial coefficients in z at fast sampling).
+    """
     decades = math.log10(b / a) if b > a else 0.0
     count = max(16, int(math.ceil(decades * POINTS_PER_DECADE)) + 1)
     w = np.geomspace(a, b, count)
@@ -324,8 +365,10 @@ def _segment_grid(loop: LoopGain, a: float, b: float, budget: int) -> tuple[np.n
     tau = loop.delay_total_s
     for _ in range(80):
         split = _needs_split(w, lr, tau)
-        if not split.any() or w.size + int(split.sum()) > budget:
+        if not split.any():
             break
+        if w.size + int(split.sum()) > budget:
+            raise NumericalError(_IRREGULAR.format(a=a, b=b))
         idx = np.flatnonzero(split)
         mids = np.sqrt(w[idx] * w[idx + 1])
         w_new = np.concatenate([w, mids])
@@ -502,6 +545,11 @@ def loop_margins(
         nyquist_end = nyquist is not None and b == nyquist and w[-1] == nyquist
         gain_w.extend(_gain_crossings(loop, w, lr, nyquist_end))
         phase_w.extend(_phase_crossings(loop, w, lr, nyquist_end))
+        if len(gain_w) + len(phase_w) > MAX_CROSSINGS:
+            raise NumericalError(
+                f"more than {MAX_CROSSINGS} crossings between {low:.6g} and {high:.6g} rad/s: "
+                + _IRREGULAR.format(a=a, b=b)
+            )
 
     # w = 0: L is real there (real coefficients); a finite negative value is a phase crossover.
     with np.errstate(all="ignore"):
@@ -520,6 +568,8 @@ def loop_margins(
     for wc in sorted(set(gain_w)):
         value = complex(frequency_response(loop, np.array([wc]))[0])
         pm_rad = math.atan2(-value.imag, -value.real)  # arg(-L) = 180 deg + arg L, in (-pi, pi]
+        if abs(pm_rad) < _ZERO_PHASE_RAD:
+            pm_rad = 0.0  # on the boundary: do not let rounding wrap the delay margin a full turn
         lag_room = pm_rad % (2 * math.pi)
         delay = lag_room / wc
         gain_list.append(GainCrossover(wc, math.degrees(pm_rad), delay))
