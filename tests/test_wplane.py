@@ -116,7 +116,7 @@ def test_to_dict_keys() -> None:
 fracs = st.fractions(min_value=-5, max_value=5, max_denominator=9)
 
 
-@settings(derandomize=True, max_examples=80, deadline=None)
+@settings(derandomize=True, max_examples=40, deadline=None)
 @given(st.lists(fracs, min_size=1, max_size=9), st.tuples(fracs, fracs), st.tuples(fracs, fracs))
 def test_integer_mobius_equals_poly_compose_mobius(p: list[Fraction], a: tuple[Fraction, Fraction], b: tuple[Fraction, Fraction]) -> None:
     """The fast integer substitution used by the maps gives exactly sampled.poly.compose_mobius."""

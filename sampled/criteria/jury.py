@@ -71,9 +71,13 @@ class JuryTable:
     rows : tuple of tuple of Fraction
         Every row, the reversed rows included (rows 1, 2, 3, 4, ... of the textbook layout).
     reduced : bool
-        Rows from the fifth pair on were divided by the positive number ``|first entry of the row
-        pair two above|`` (an exact divisor, as in Bareiss elimination), which keeps the numbers
-        short and changes no condition. ``False`` gives the textbook numbers.
+        From the fourth row pair on (the ``d`` rows), each new pair was divided by the positive
+        number ``|first entry of the pair two above|`` (``d`` by ``|b_0|``, ``e`` by ``|c_0|``, ...).
+        The division is exact in integer arithmetic, as in Bareiss elimination (checked
+        symbolically up to degree 6 and on random integer polynomials up to degree 20; the code
+        verifies divisibility and otherwise divides in
+        rationals). It keeps the entries' size growing linearly instead of doubling each pair,
+        and, being a positive scaling, changes no condition. ``False`` gives the textbook numbers.
     conditions : tuple of JuryCondition
         The necessary conditions (``P(1) > 0``, ``(-1)^n P(-1) > 0``, ``|a_0| < a_n``) then one
         condition for each derived row pair.
