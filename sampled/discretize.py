@@ -26,11 +26,13 @@ E. I. Jury, "Theory and Application of the z-Transform Method", Wiley, 1964, cha
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass
 from typing import Literal, get_args
 
 import numpy as np
 import scipy.linalg
+import scipy.signal
 
 from sampled.discrete import DiscreteSystem, fmt_complex
 from sampled.errors import InputError
@@ -81,6 +83,35 @@ def split_delay(delay_s: float, period_s: float) -> DelaySplit:
     fraction = delay_s - whole * period_s
     fraction = min(max(fraction, 0.0), period_s)
     return DelaySplit(whole, fraction)
+
+
+@dataclass(frozen=True)
+class _Realisation:
+    a: np.ndarray
+    b: np.ndarray
+    c: np.ndarray
+    d: np.ndarray
+    poles: np.ndarray
+
+
+_REALISATIONS: "weakref.WeakKeyDictionary[ContinuousSystem, _Realisation]" = weakref.WeakKeyDictionary()
+
+
+def _realisation(system: ContinuousSystem) -> _Realisation:
+    """``system.state_space()`` and its poles, computed once per system object.
+
+    The realisation finds the poles in extended precision (mpmath), which costs far more than the
+    discretisation itself; a sweep over periods reuses it. Arrays are read-only.
+    """
+    found = _REALISATIONS.get(system)
+    if found is None:
+        a, b, c, d = (np.array(m, dtype=float) for m in system.state_space())
+        poles = system.poles()
+        for m in (a, b, c, d, poles):
+            m.setflags(write=False)
+        found = _Realisation(a, b, c, d, poles)
+        _REALISATIONS[system] = found
+    return found
 
 
 def _check_period(period_s: float) -> None:
@@ -138,7 +169,8 @@ def zoh_with_delay(system: ContinuousSystem, period_s: float, delay_s: float) ->
             "delay",
         )
     split = split_delay(delay_s, period_s)
-    a, b, c, d = system.state_space()
+    r = _realisation(system)
+    a, b, c, d = r.a, r.b, r.c, r.d
     n = a.shape[0]
     t = period_s
     full = hold_integrals(a, b, t)
@@ -211,7 +243,8 @@ def first_order_hold(system: ContinuousSystem, period_s: float) -> DiscreteSyste
             f"{system.delay_s / period_s:.6g} periods (use zoh for a fractional delay)",
             "delay",
         )
-    a, b, c, d = system.state_space()
+    r = _realisation(system)
+    a, b, c, d = r.a, r.b, r.c, r.d
     t = period_s
     f = hold_integrals(a, b, t, ramp=True)
     assert f.ramp is not None
@@ -237,7 +270,8 @@ def _rational_mapping(
     and the delta form ``(Phi - I)/T = (h/T) M^-1 A``, ``Gamma/T = (h/T) M^-1 B`` (no subtraction).
     """
     whole = _whole_delay(system, period_s, label)
-    a, b, c, d = system.state_space()
+    r = _realisation(system)
+    a, b, c, d = r.a, r.b, r.c, r.d
     n = a.shape[0]
     eye = np.eye(n)
     m = eye - weight * h * a
@@ -326,18 +360,63 @@ def _expm1_complex(x: complex) -> complex:
     return complex(math.expm1(a) * math.cos(b) - 2.0 * math.sin(b / 2.0) ** 2, math.exp(a) * math.sin(b))
 
 
-def _delta_images(roots: np.ndarray, period_s: float) -> list[object]:
-    """Delta-plane images ``(exp(r T) - 1)/T`` of real roots and of conjugate pairs (as ``[re, im]``
-    for both members, exactly conjugate)."""
-    out: list[object] = []
+def _delta_images(roots: np.ndarray, period_s: float) -> list[complex]:
+    """Delta-plane images ``(exp(r T) - 1)/T`` of real roots and of conjugate pairs (each pair
+    computed once, so the two members are exactly conjugate)."""
+    out: list[complex] = []
     for r in roots:
         if r.imag == 0:
-            out.append(math.expm1(r.real * period_s) / period_s)
+            out.append(complex(math.expm1(r.real * period_s) / period_s))
         elif r.imag > 0:
             w = _expm1_complex(complex(r) * period_s) / period_s
-            out.append([w.real, w.imag])
-            out.append([w.real, -w.imag])
+            out += [w, w.conjugate()]
     return out
+
+
+def _factors(roots: list[complex]) -> list[np.ndarray]:
+    """Real monic factors ``[1, -r]`` and ``[1, -2 Re r, |r|^2]``, second-order ones first."""
+    out = [np.array([1.0, -r.real]) for r in roots if r.imag == 0]
+    out = [np.array([1.0, -2.0 * r.real, r.real**2 + r.imag**2]) for r in roots if r.imag > 0] + out
+    return out
+
+
+def _cascade_from_roots(
+    zeros: list[complex], poles: list[complex], gain: float
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Balanced state-space realisation of ``gain prod(x - zeros)/prod(x - poles)`` as a cascade of
+    first- and second-order sections (each pole a function of at most two coefficients, which keeps
+    widely spread poles accurate; companion forms would not)."""
+    p_f, z_f = _factors(poles), _factors(zeros)
+    if not p_f:
+        return np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), np.array([[gain]])
+    # Each section: [numerator, denominator, room left for zeros]. Zero factors go to the first
+    # section with room; when none has room, the two roomiest sections merge (a complex zero pair
+    # facing two real poles needs a second-order section).
+    secs: list[list] = [[np.array([1.0]), pf, pf.size - 1] for pf in p_f]
+    for zf in z_f:
+        deg = zf.size - 1
+        while not any(sec[2] >= deg for sec in secs):
+            secs.sort(key=lambda sec: -sec[2])
+            s1, s2 = secs.pop(0), secs.pop(0)
+            secs.insert(0, [np.polymul(s1[0], s2[0]), np.polymul(s1[1], s2[1]), s1[2] + s2[2]])
+        sec = next(sec for sec in secs if sec[2] >= deg)
+        sec[0] = np.polymul(sec[0], zf)
+        sec[2] -= deg
+    sections = [scipy.signal.tf2ss(num_k, den_k) for num_k, den_k, _ in secs]
+    a, b, c, d = (np.array(m, dtype=float) for m in sections[0])
+    for sec in sections[1:]:
+        a2, b2, c2, d2 = sec
+        n1, n2 = a.shape[0], a2.shape[0]
+        a = np.block([[a, np.zeros((n1, n2))], [b2 @ c, a2]])
+        b = np.vstack([b, b2 @ d])
+        c = np.hstack([d2 @ c, c2])
+        d = d2 @ d
+    c, d = c * gain, d * gain
+    _, (scale, _) = scipy.linalg.matrix_balance(a, permute=False, separate=True)
+    a = a * scale[np.newaxis, :] / scale[:, np.newaxis]
+    b = b / scale[:, np.newaxis]
+    c = c * scale[np.newaxis, :]
+    return a, b, c, d
 
 
 def matched_pole_zero(system: ContinuousSystem, period_s: float) -> DiscreteSystem:
@@ -361,38 +440,43 @@ def matched_pole_zero(system: ContinuousSystem, period_s: float) -> DiscreteSyst
     t = period_s
     num, den = system.num_exact, system.den_exact
     if all(c == 0 for c in num):
-        zero = ContinuousSystem.from_coefficients([0], [1])
-        a, b, c, d = zero.state_space()
-        return DiscreteSystem.from_delta(a, b, c, d, t, whole, "matched")
-    poles = system.poles() if system.given_state_space is None else system.poles()
-    zeros = system.zeros() if len(num) > 1 else np.zeros(0, dtype=complex)
-    n, m = len(poles), len(zeros)
+        return DiscreteSystem.from_delta(
+            np.zeros((0, 0)), np.zeros((0, 1)), np.zeros((1, 0)), 0.0, t, whole, "matched")
+    poles = _realisation(system).poles
+    zeros = _cached_zeros(system)
     lam = _delta_images(poles, t)
     mu = _delta_images(zeros, t)
-    rel = n - m
-    mu += [-2.0 / t] * max(rel - 1, 0)  # zeros at infinity -> z = -1, one kept at infinity
+    rel = len(lam) - len(mu)
+    mu += [complex(-2.0 / t)] * max(rel - 1, 0)  # zeros at infinity -> z = -1, one kept at infinity
 
-    def low(p: tuple) -> object:
-        for coef in reversed(p):
-            if coef != 0:
-                return coef
-        raise AssertionError("zero polynomial")
+    def lowest(p: tuple) -> object:
+        return next(coef for coef in reversed(p) if coef != 0)
 
-    g0 = float(low(num) / low(den))  # lim s->0 s^k G(s)
+    g0 = float(lowest(num) / lowest(den))  # lim s->0 s^k G(s), exact ratio
 
-    def prod_nonzero(vals: list[object]) -> complex:
+    def prod_nonzero(vals: list[complex]) -> complex:
         acc = complex(1.0)
-        for v in vals:
-            w = complex(v[0], v[1]) if isinstance(v, list) else complex(v)  # type: ignore[arg-type]
+        for w in vals:
             if w != 0:
                 acc *= -w
         return acc
 
     gain = g0 * (prod_nonzero(lam) / prod_nonzero(mu)).real
-    realised = ContinuousSystem.from_zeros_poles_gain(mu, lam, gain)  # a transfer in the delta variable
-    a, b, c, d = realised.state_space()
+    a, b, c, d = _cascade_from_roots(mu, lam, gain)  # a transfer in the delta variable
     disc = DiscreteSystem.from_delta(a, b, c, d, t, whole, "matched")
     return _with_notes(disc, system, "matched pole-zero")
+
+
+_ZEROS: "weakref.WeakKeyDictionary[ContinuousSystem, np.ndarray]" = weakref.WeakKeyDictionary()
+
+
+def _cached_zeros(system: ContinuousSystem) -> np.ndarray:
+    found = _ZEROS.get(system)
+    if found is None:
+        found = system.zeros() if len(system.num_exact) > 1 else np.zeros(0, dtype=complex)
+        found.setflags(write=False)
+        _ZEROS[system] = found
+    return found
 
 
 # ---- dispatch -----------------------------------------------------------------------------------
@@ -456,7 +540,7 @@ def stability_change(system: ContinuousSystem, disc: DiscreteSystem, label: str 
     """
     label = label or disc.method
     eps = np.finfo(float).eps
-    s_poles = system.poles()
+    s_poles = _realisation(system).poles
     s_tol = 100 * eps * (float(np.max(np.abs(s_poles))) if s_poles.size else 0.0)
     cont_stable = bool(np.all(s_poles.real < -s_tol)) if s_poles.size else True
     cont_unstable_or_marginal = [s for s in s_poles if s.real >= -s_tol]

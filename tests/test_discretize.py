@@ -475,3 +475,29 @@ def test_hold_integrals_zero_interval() -> None:
     np.testing.assert_array_equal(h.phi, np.eye(2))
     np.testing.assert_array_equal(h.gamma, np.zeros((2, 1)))
     np.testing.assert_allclose(h.a_delta, a)
+
+
+def test_given_state_space_against_scipy() -> None:
+    """Reference: scipy.signal.cont2discrete on the same matrices (a system given in state space,
+    with direct feedthrough), for the hold equivalents and the bilinear mapping."""
+    a = [[0.0, 1.0, 0.0], [0.0, 0.0, 1.0], [-6.0, -11.0, -6.0]]
+    b, c, d = [[0.0], [0.0], [1.0]], [[2.0, 1.0, 0.5]], [[0.25]]
+    system = ContinuousSystem.from_state_space(a, b, c, d)
+    for method, name in (("zoh", "zoh"), ("foh", "foh"), ("tustin", "bilinear")):
+        ours = discretize(system, 0.2, method)  # type: ignore[arg-type]
+        ref = scipy.signal.cont2discrete((np.array(a), np.array(b), np.array(c), np.array(d)), 0.2, method=name)
+        num_ref, den_ref = scipy.signal.ss2tf(*ref[:4])
+        _assert_same_transfer(ours, num_ref, den_ref, rtol=1e-10)
+
+
+def test_realisation_is_reused_across_periods() -> None:
+    """A sweep over periods reuses the (extended-precision) realisation of the same system object,
+    and the cached arrays cannot be modified by a caller."""
+    from sampled.discretize import _realisation
+
+    system = ContinuousSystem.from_expression("1/((s+1)*(s+2))")
+    first = _realisation(system)
+    zero_order_hold(system, 0.1)
+    assert _realisation(system) is first
+    with pytest.raises(ValueError):
+        first.a[0, 0] = 1.0
