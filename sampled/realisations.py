@@ -62,9 +62,10 @@ chapter 2 (the delta operator), from memory.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
+from functools import lru_cache
 from typing import Literal, get_args
 
 import mpmath
@@ -253,6 +254,35 @@ class ImplementedController:
         """Largest |implemented - ideal| over the stored coefficients."""
         return max((float(abs(c.value - c.ideal)) for c in self.coefficients), default=0.0)
 
+    def to_dict(self) -> dict[str, object]:
+        """Plain values for JSON (Fractions stay exact; see sampled.commands.common.to_jsonable)."""
+        fmt = self.number_format
+        return {
+            "realisation": self.realisation,
+            "word_bits": None if fmt is None else fmt.word_bits,
+            "format": "double" if fmt is None else fmt.name,
+            "signal_format": None if self.signal_format is None else self.signal_format.name,
+            "rounding": self.rounding,
+            "period_s": self.period_s,
+            "coefficients": [
+                {
+                    "name": c.name,
+                    "integer": c.integer,
+                    "fraction_bits": c.fraction_bits,
+                    "value": c.value,
+                    "value_float": float(c.value),
+                    "ideal_float": float(c.ideal),
+                }
+                for c in self.coefficients
+            ],
+            "b": list(self.b),
+            "a": list(self.a),
+            "poles": list(self.poles),
+            "zeros": list(self.zeros),
+            "spectral_radius": self.spectral_radius,
+            "delta_step": self.delta_step,
+        }
+
 
 # ---------------------------------------------------------------------------------------------
 # Input normalisation and roots
@@ -313,14 +343,79 @@ def _roots_mp(coeffs: Sequence[Fraction], digits: int = 40) -> list[mpmath.mpc]:
     out: list[mpmath.mpc] = [mpmath.mpc(0)] * origin
     if len(p) <= 1:
         return out
-    with mpmath.workdps(digits):
-        mp = [_to_mpf(c) for c in p]
-        try:
-            found = mpmath.polyroots(mp, maxsteps=400, extraprec=4 * digits + 10 * len(p))
-        except mpmath.libmp.libhyper.NoConvergence:
-            found = [mpmath.mpc(complex(r)) for r in np.roots([float(c) for c in p])]
-        out.extend(mpmath.mpc(r) for r in found)
+    for factor, multiplicity in _square_free(tuple(p)):
+        out.extend(list(_polished_roots(factor, digits)) * multiplicity)
     return out
+
+
+def _square_free(p: tuple[Fraction, ...]) -> list[tuple[tuple[Fraction, ...], int]]:
+    """Yun's square-free factorisation in exact arithmetic: ``p = c * prod f_i ** i``.
+
+    Exactly repeated roots (an integrator pair, rounded coefficients that coincide) would make
+    the root polish converge only linearly; each factor here has simple roots.
+    Reference: Yun, D. Y. Y., "On square-free decomposition algorithms", SYMSAC 1976.
+    """
+    if len(p) <= 2:
+        return [(p, 1)]
+    dp = poly.derivative(p)
+    g = poly.gcd(p, dp)
+    if len(g) <= 1:
+        return [(p, 1)]
+    out = []
+    b, _ = poly.divmod_(p, g)
+    c, _ = poly.divmod_(dp, g)
+    d = poly.sub(c, poly.derivative(b))
+    i = 1
+    while len(b) > 1:
+        a = poly.gcd(b, d)
+        if len(a) > 1:
+            out.append((tuple(a), i))
+        b, _ = poly.divmod_(b, a)
+        c, _ = poly.divmod_(d, a)
+        d = poly.sub(c, poly.derivative(b))
+        i += 1
+    return out
+
+
+@lru_cache(maxsize=512)
+def _polished_roots(p: tuple[Fraction, ...], digits: int) -> tuple[mpmath.mpc, ...]:
+    """Roots of ``p`` (no root at 0): numpy estimates polished by Weierstrass (Durand-Kerner)
+    iteration at ``digits`` digits; mpmath.polyroots when the polish does not settle.
+
+    Weierstrass iteration from good starting points converges quadratically to simple roots and
+    keeps clustered roots apart (each correction divides by the distances to the others).
+    """
+    with mpmath.workdps(digits + 10):
+        mp = [_to_mpf(c) for c in p]
+        lead = mp[0]
+        n = len(mp) - 1
+        with np.errstate(all="ignore"):
+            start = np.roots([float(c) for c in p])
+        if start.size != n or not np.all(np.isfinite(start)):
+            start = np.array([complex(0.4, 0.9) ** k for k in range(n)])
+        # Separate coincident starting points (exact multiple roots in double).
+        zs = [mpmath.mpc(complex(z)) * (1 + mpmath.mpf(k) * mpmath.mpf(10) ** -12) for k, z in enumerate(start)]
+        tol = mpmath.mpf(10) ** (-digits)
+        for _ in range(200):
+            biggest = mpmath.mpf(0)
+            new = []
+            for i, z in enumerate(zs):
+                den = lead
+                for j, w in enumerate(zs):
+                    if j != i:
+                        den *= z - w
+                val = mpmath.polyval(mp, z)
+                step = val / den if den != 0 else mpmath.mpf(0)
+                new.append(z - step)
+                scale = max(abs(z), mpmath.mpf(1))
+                biggest = max(biggest, abs(step) / scale)
+            zs = new
+            if biggest < tol:
+                return tuple(zs)
+        try:
+            return tuple(mpmath.polyroots(mp, maxsteps=400, extraprec=4 * digits + 10 * len(mp)))
+        except mpmath.libmp.libhyper.NoConvergence:
+            return tuple(zs)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -444,11 +539,18 @@ def pair_sections(
 
     See the module docstring for the pairing and ordering rules. Coefficients come from roots
     found at ``digits`` significant digits, so they are accurate to double precision and beyond
-    even for poles clustered near ``z = 1``.
+    even for poles clustered near ``z = 1``. ``b`` and ``a`` as from :func:`normalise`.
     """
+    return list(_pair_sections(tuple(Fraction(v) for v in b), tuple(Fraction(v) for v in a), digits))
+
+
+@lru_cache(maxsize=64)
+def _pair_sections(
+    b: tuple[Fraction, ...], a: tuple[Fraction, ...], digits: int
+) -> tuple[tuple[tuple[Fraction, Fraction, Fraction], tuple[Fraction, Fraction, Fraction]], ...]:
     n = len(a) - 1
     if n == 0:
-        return [((b[0], Fraction(0), Fraction(0)), (Fraction(1), Fraction(0), Fraction(0)))]
+        return (((b[0], Fraction(0), Fraction(0)), (Fraction(1), Fraction(0), Fraction(0))),)
     with mpmath.workdps(digits):
         poles = _roots_mp(a, digits)
         bt = list(b)
@@ -509,7 +611,7 @@ def pair_sections(
                 break
         else:  # pragma: no cover - slot count guarantees a free slot
             raise AssertionError("no free numerator slot for a delay")
-    return [(tuple(s[0]), tuple(s[1])) for s in sections]  # type: ignore[misc]
+    return tuple((tuple(s[0]), tuple(s[1])) for s in sections)  # type: ignore[misc]
 
 
 def _build_sections(
@@ -741,6 +843,26 @@ def implement_word_lengths(
         for w in words:
             out.append(implement(b, a, period_s, r, FixedFormat(w, w - 1), rounding=rounding))
     return tuple(out)
+
+
+def smallest_word_bits(
+    rows: Iterable[ImplementedController], passes: Callable[[ImplementedController], bool]
+) -> int | None:
+    """Smallest word length from which every longer word in ``rows`` passes ``passes``.
+
+    ``rows`` are implementations of one realisation at several word lengths (as from
+    :func:`implement_word_lengths`); ``passes`` is the caller's test (loop stable, requirements
+    met). Robustness to rounding need not be monotone in the word length (a lucky rounding can
+    pass at 11 bits and fail at 12), so the answer is the start of the passing run that reaches
+    the longest word tried; None when the longest word fails.
+    """
+    ordered = sorted(rows, key=lambda r: r.word_bits or 0)
+    best: int | None = None
+    for row in reversed(ordered):
+        if not passes(row):
+            break
+        best = row.word_bits
+    return best
 
 
 def delta_coefficients(impl: ImplementedController) -> tuple[tuple[Fraction, ...], tuple[Fraction, ...]]:

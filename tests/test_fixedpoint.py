@@ -43,6 +43,7 @@ from sampled.realisations import (
     signal_levels,
     simulate_fixed,
     simulate_float,
+    smallest_word_bits,
     state_space,
 )
 
@@ -475,3 +476,47 @@ def test_overflow_report_rejects_bad_bound() -> None:
     impl = implement([0.25], [1.0, -0.5], 1e-3, "direct1", FixedFormat(16, 15))
     with pytest.raises(InputError, match="input_bound"):
         overflow_report(impl, input_bound=-1.0)
+
+
+def test_smallest_word_bits_for_the_fragile_case() -> None:
+    """Sections keep the band-pass poles strictly inside from 12 bits on; direct form never does.
+
+    Closed form: a section with poles p, conj(p) has 1 + a1 + a2 = |1 - p|^2 (its denominator at
+    z = 1), about (2 pi 50 Hz * 100 us)^2 ~ 1e-3 here. With |a1| ~ 2 a w-bit word keeps w - 2
+    fraction bits, so up to 11 bits (LSB 2^-9 ~ 2e-3) the rounding can cancel it exactly and put
+    a pole ON z = 1: checked in exact arithmetic below, independent of any root finder.
+    Direct form fails at every word up to 32 bits (radius 1.0126 at 32 bits; mpmath-checked in
+    the fragile test above for 16 bits).
+    """
+    b, a = BANDPASS
+    rows = implement_word_lengths(b, a, 1e-4, range(8, 33), ["sections", "direct1"])  # type: ignore[list-item]
+    sections = [r for r in rows if r.realisation == "sections"]
+    direct = [r for r in rows if r.realisation == "direct1"]
+    for r in sections:
+        on_one = any(den[0] + den[1] + den[2] == 0 for _, den in r.sections or ())
+        assert on_one == (r.word_bits <= 11)
+        if on_one:
+            assert r.spectral_radius == pytest.approx(1.0, abs=1e-12)
+    inside = lambda r: r.spectral_radius < 1.0  # noqa: E731
+    assert smallest_word_bits(sections, inside) == 12
+    assert smallest_word_bits(direct, inside) is None
+
+
+def test_smallest_word_bits_not_monotone() -> None:
+    """A pass at 10 bits, fail at 11, pass from 12: the answer is 12 (start of the final run)."""
+    b, a = _lead_lag()
+    rows = implement_word_lengths(b, a, 1e-3, range(10, 15), ["direct1"])  # type: ignore[list-item]
+    verdicts = {10: True, 11: False, 12: True, 13: True, 14: True}
+    assert smallest_word_bits(rows, lambda r: verdicts[r.word_bits]) == 12
+
+
+def test_to_dict_is_json_ready() -> None:
+    import json
+
+    from sampled.commands.common import to_jsonable
+
+    impl = implement([0.5, 0.1], [1.0, -0.5], 1e-3, "delta", FixedFormat(16, 15))
+    data = json.loads(json.dumps(to_jsonable(impl.to_dict()), allow_nan=False))
+    assert data["format"] == "Q15" and data["word_bits"] == 16
+    assert Fraction(data["a"][1]) == impl.a[1]
+    assert [c["integer"] for c in data["coefficients"]] == [c.integer for c in impl.coefficients]
