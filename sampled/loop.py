@@ -44,6 +44,8 @@ from sampled.verdict import Verdict, judge_s, judge_z
 NEAR_CIRCLE = 1e-9
 #: Largest closed-loop order whose exact characteristic polynomial is always formed.
 EXACT_ORDER_LIMIT = 16
+#: Largest number of whole-sample delays modelled as states (each adds one closed-loop pole).
+MAX_DELAY_SAMPLES = 300
 #: Pade order used to show continuous closed-loop poles of a loop with a transport delay.
 PADE_ORDER = 4
 
@@ -120,6 +122,13 @@ def digital_loop(spec: LoopSpec, period_s: float | None = None, controller: Disc
     t = spec.period_s if period_s is None else period_s
     if not (math.isfinite(t) and t > 0):
         raise InputError(f"the period must be finite and positive, got {t!r}", "period")
+    total_delay = path_system(spec).delay_s + compute_delay_s(spec, t)
+    if total_delay / t > MAX_DELAY_SAMPLES:
+        raise InputError(
+            f"the plant and computation delays add up to {total_delay / t:.0f} sample periods at T = {t:g} s; "
+            f"at most {MAX_DELAY_SAMPLES} are modelled (each is a closed-loop pole): use a longer period",
+            "timing.period",
+        )
     ctrl = controller if controller is not None else digital_controller(spec, t)
     plant = plant_pulse(spec, t)
     open_loop = ctrl.series(plant)
@@ -500,4 +509,6 @@ def assess(spec: LoopSpec, period_s: float | None = None, *, controller: Discret
     partial = Assessment(spec, t, digital, continuous, requirements, tuple(findings), loop)
     for producer in EXTRA_FINDINGS:
         findings.extend(producer(partial))
+    from sampled.hazards import sampling_findings  # local: hazards simulates the loop assembled here
+    findings.extend(sampling_findings(partial))
     return Assessment(spec, t, digital, continuous, requirements, tuple(findings), loop)

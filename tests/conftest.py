@@ -8,6 +8,10 @@ from __future__ import annotations
 
 import os
 
+# Small matrices: one BLAS thread is fastest and avoids oversubscribing a two-core machine.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
 from hypothesis import HealthCheck, settings
 
 settings.register_profile(
