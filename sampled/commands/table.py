@@ -78,7 +78,8 @@ def _run_gain(args: argparse.Namespace, domain: str) -> int:
             }
         )
     else:
-        print(f"Characteristic polynomial: {P.format_poly(p0, domain)} + {args.gain}*({P.format_poly(p1, domain)})")
+        gain_part = args.gain if p1 == P.ONE else f"{args.gain}*({P.format_poly(p1, domain)})"
+        print(f"Characteristic polynomial: {P.format_poly(p0, domain)} + {gain_part}")
         where = "open left half-plane" if domain == "s" else "open unit disc"
         if ranges:
             print(f"All roots lie in the {where} for:")
@@ -110,7 +111,7 @@ def render_routh(table: RouthArray, variable: str = "s", title: str = "Routh arr
         f"Roots: {table.left} in the left half-plane, {table.imaginary} on the imaginary axis, "
         f"{table.right} in the right half-plane"
     )
-    for note in table.notes:
+    for note in table.notes_for(variable):
         lines.append(f"  note: {note}")
     lines.append(f"Verdict: {table.verdict}")
     return "\n".join(lines)

@@ -241,19 +241,23 @@ class RouthArray:
 
     @property
     def notes(self) -> tuple[str, ...]:
+        return self.notes_for("s")
+
+    def notes_for(self, v: str) -> tuple[str, ...]:
+        """The notes with the polynomial's variable named ``v`` (``"w"`` for a w-plane array)."""
         out: list[str] = []
         if self.origin_roots:
-            out.append(f"{self.origin_roots} root(s) at s = 0 factored out before the array")
+            out.append(f"{self.origin_roots} root(s) at {v} = 0 factored out before the array")
         for r in self.eps_rows:
-            out.append(f"row s^{self.powers[r]}: zero in the first column replaced by eps -> 0+")
+            out.append(f"row {v}^{self.powers[r]}: zero in the first column replaced by eps -> 0+")
         for a in self.auxiliary:
             aux = (
-                P.format_poly(tuple(_plain(x) for x in a.polynomial), "s")
+                P.format_poly(tuple(_plain(x) for x in a.polynomial), v)
                 if all(not isinstance(x, Eps) for x in a.polynomial)
                 else "[" + ", ".join(map(str, a.polynomial)) + "]"
             )
             out.append(
-                f"row s^{self.powers[a.row]} was all zeros: replaced by the derivative of the auxiliary "
+                f"row {v}^{self.powers[a.row]} was all zeros: replaced by the derivative of the auxiliary "
                 f"polynomial {aux}, which has {a.imaginary_roots} root(s) on the imaginary axis"
             )
         if self.repeated_imaginary:
