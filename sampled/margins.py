@@ -190,6 +190,17 @@ class Margins:
         """
         return self.closed_loop_stable
 
+    @property
+    def delay_margin_below_one_sample(self) -> bool | None:
+        """True when a discrete loop cannot absorb one more sample of delay (a classic hazard:
+        one more sample of computation latency, and the loop reaches the boundary).
+
+        None for a continuous loop.
+        """
+        if self.delay_margin_samples is None:
+            return None
+        return self.delay_margin_samples < 1.0
+
     def to_dict(self) -> dict[str, Any]:
         """Plain dict; infinite margins stay ``math.inf`` (the CLI layer writes ``"inf"``)."""
         return {
@@ -208,6 +219,7 @@ class Margins:
             "period_s": self.period_s,
             "closed_loop_stable": self.closed_loop_stable,
             "classical_valid": self.classical_valid,
+            "delay_margin_below_one_sample": self.delay_margin_below_one_sample,
         }
 
 
@@ -508,6 +520,15 @@ def loop_margins(
     Returns
     -------
     Margins
+
+    Raises
+    ------
+    InputError
+        If ``band_rad_s`` is not an increasing pair of positive numbers (below ``pi/T``).
+    NumericalError
+        If the response cannot be resolved on the grid (rounding noise, typically from
+        polynomial coefficients in z at fast sampling) or shows more than
+        :data:`MAX_CROSSINGS` crossings.
 
     Notes
     -----

@@ -209,6 +209,9 @@ def test_discrete_integrator_closed_form(gain, period):
     assert m.delay_margin_samples == pytest.approx(math.radians(pm) / theta_c, rel=1e-10)
     assert m.delay_margin_s == pytest.approx(m.delay_margin_samples * period, rel=1e-15)
     assert len(m.phase_crossovers) == 1 and len(m.gain_crossovers) == 1
+    # exactly one sample of margin at K T = 1 (the boundary, left to rounding); beyond it, the hazard
+    if kt != 1.0:
+        assert m.delay_margin_below_one_sample is (kt > 1.0)
 
 
 def test_deadbeat_integrator_tolerates_exactly_one_sample():
@@ -630,6 +633,7 @@ def test_to_dict_lists_every_crossing():
     assert len(d["phase_crossovers"]) == len(m.phase_crossovers) > 10
     assert d["gain_crossovers"][0]["phase_margin_deg"] == m.phase_margin_deg
     assert d["classical_valid"] is None and d["domain"] == "continuous"
+    assert d["delay_margin_below_one_sample"] is None and d["delay_margin_samples"] is None
 
 
 def test_band_reaches_nyquist_for_discrete_loops():
