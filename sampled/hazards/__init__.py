@@ -123,12 +123,17 @@ def pathological_findings(a: Assessment) -> list[Finding]:
 # ---- 2. aliasing ---------------------------------------------------------------------------------------
 
 def _crossover(a: Assessment) -> float | None:
+    """Gain crossover of the loop as implemented, else of the continuous design."""
+    return _crossover_with_source(a)[0]
+
+
+def _crossover_with_source(a: Assessment) -> tuple[float | None, str]:
     m = a.digital.margins
     if m is not None and m.gain_crossover_rad_s:
-        return float(m.gain_crossover_rad_s)
+        return float(m.gain_crossover_rad_s), "loop as implemented"
     if a.continuous is not None and a.continuous.margins is not None and a.continuous.margins.gain_crossover_rad_s:
-        return float(a.continuous.margins.gain_crossover_rad_s)
-    return None
+        return float(a.continuous.margins.gain_crossover_rad_s), "continuous design"
+    return None, ""
 
 
 def aliasing_findings(a: Assessment) -> list[Finding]:
@@ -238,7 +243,7 @@ def ripple_findings(a: Assessment, response: Any | None = None) -> list[Finding]
         freq = "" if rp.ripple_frequency_rad_s is None else f" at about {_fmt_hz(rp.ripple_frequency_rad_s)}"
         out.append(Finding(
             "intersample-ripple",
-            f"hidden oscillation: after {_fmt_s(rp.window_start_s)} the samples of the plant output vary by only "
+            f"hidden oscillation: once the samples have settled (from {_fmt_s(rp.window_start_s)}) they vary by only "
             f"{rp.steady_sampled_swing:.3g} but the output between samples swings {rp.steady_continuous_swing:.3g} "
             f"peak to peak{freq} (unit step).",
             "The loop cannot see this: look for a plant mode near a pathological period or above the Nyquist "
@@ -280,7 +285,7 @@ def rule_of_thumb_findings(a: Assessment, response: Any | None = None) -> list[F
         return out
     t = a.period_s
     wn = math.pi / t
-    wc = _crossover(a)
+    wc, label = _crossover_with_source(a)
     tau = compute_delay_s(a.spec, t)
     source_aw = "Astrom and Wittenmark, Computer-Controlled Systems, 3rd ed., 1997 (from memory)"
     if wc is not None:
@@ -291,8 +296,6 @@ def rule_of_thumb_findings(a: Assessment, response: Any | None = None) -> list[F
         inside = lo <= wct <= hi
         far = wct > hi * rules.FAR_FACTOR
         ratio = wn / wc
-        label = "designed crossover" if (a.continuous is not None and a.continuous.margins is not None
-                                          and a.continuous.margins.gain_crossover_rad_s) else "crossover"
         place = "inside" if inside else ("below" if wct < lo else "above")
         out.append(Finding(
             "rule-of-thumb",

@@ -3,7 +3,8 @@
 Ripple is measured on the exact step response of :mod:`sampled.simulate`: per period, the largest
 distance of the plant output ``y(t)`` from the straight line between its values at the two sampling
 instants (a smooth output departs from that chord by ``|y''| T^2 / 8`` at most), over the whole
-response and over its last quarter (where a settled loop should be still). A loop whose samples
+response and from the instant the samples have settled (within :data:`SETTLE_BAND` of their final
+value for good; at the latest the last quarter of the response). A loop whose samples
 have settled while the output between them still swings hides an oscillation: typically a plant
 mode at or near a pathological period, or an actuator that alternates each sample.
 
@@ -35,6 +36,8 @@ from sampled.simulate import StepResponse
 
 #: Steady ripple (last quarter, fraction of the unit step) above which hidden oscillation is reported.
 HIDDEN_RIPPLE = 0.01
+#: Band around the final sampled value (unit step) within which the samples count as settled.
+SETTLE_BAND = 0.02
 #: Transient departure from the chord (fraction of the unit step) above which ripple is reported.
 TRANSIENT_RIPPLE = 0.1
 #: Controller poles with |z| below this are ignored (they die out within two samples).
@@ -51,11 +54,11 @@ class Ripple:
 
     largest_departure: float  # max over periods of max |y(t) - chord|
     largest_departure_time_s: float
-    steady_departure: float  # the same over the last quarter of the response
-    steady_sampled_swing: float  # peak-to-peak of y(kT) over the last quarter
-    steady_continuous_swing: float  # peak-to-peak of y(t) over the last quarter
-    ripple_frequency_rad_s: float | None  # dominant frequency of y - chord in the last quarter
-    actuator_alternation: float  # max |u[k+1] - 2 u[k] + u[k-1]| / 4 over the last quarter
+    steady_departure: float  # the same once the samples have settled (window)
+    steady_sampled_swing: float  # peak-to-peak of y(kT) in the window
+    steady_continuous_swing: float  # peak-to-peak of y(t) in the window
+    ripple_frequency_rad_s: float | None  # dominant frequency of y - chord in the window
+    actuator_alternation: float  # max |u[k+1] - 2 u[k] + u[k-1]| / 4 in the window
     actuator_scale: float  # max |u| over the response
     window_start_s: float
 
@@ -74,7 +77,11 @@ def measure_ripple(r: StepResponse) -> Ripple:
     per_period = dep.max(axis=1)
     i = int(np.argmax(per_period))
     j = int(np.argmax(dep[i]))
-    start = max(0, periods - max(1, periods // 4))
+    # window: from the instant the samples settle (stay within SETTLE_BAND of their final value)
+    final = float(np.mean(ys[-max(1, k // 10):]))
+    outside = np.flatnonzero(np.abs(ys - final) > SETTLE_BAND)
+    start = int(outside[-1]) + 1 if outside.size else 0
+    start = min(start, max(0, periods - max(1, periods // 4)))
     steady = float(per_period[start:].max())
     samp_tail = ys[start:]
     cont_tail = r.y_fine[start * m:]
