@@ -302,6 +302,26 @@ class DiscreteSystem:
         dist = self.poles().unit_circle_distance
         return float(np.min(dist)) if dist.size else 1.0
 
+    def coefficient_pole_error(self) -> float:
+        """How well the coefficients in z (as doubles) still place the poles.
+
+        Returns the largest ``|z_c - z| / |z - 1|`` over the poles, where ``z_c`` are the roots
+        (numpy.roots) of the denominator returned by :meth:`transfer` and ``z`` the poles from the
+        delta form (a pole at ``z = 1`` counts with denominator 1). Near 1e-16 the shift
+        coefficients are fine; above about 1e-6 a difference equation built from them does not
+        have the designed dynamics (use the delta form), which happens at fast sampling.
+        """
+        p = self.poles()
+        if p.z.size == 0:
+            return 0.0
+        _, den = self.transfer()
+        roots = np.roots(den)
+        worst = 0.0
+        for z in p.z:
+            scale = abs(z - 1.0) or 1.0
+            worst = max(worst, float(np.min(np.abs(roots - z))) / scale)
+        return worst
+
     def delta_transfer(self) -> tuple[np.ndarray, np.ndarray]:
         """Transfer of the state part in the delta variable ``gamma = (z-1)/T`` (delay excluded).
 

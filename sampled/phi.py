@@ -121,7 +121,8 @@ def hold_integrals(a: np.ndarray, b: np.ndarray, h: float, ramp: bool = False) -
         Also return the triangle-hold integral ``h phi_2(A h) B``.
     """
     a = np.asarray(a, dtype=float)
-    b = np.asarray(b, dtype=float).reshape(a.shape[0], -1)
+    n = a.shape[0]
+    b = np.asarray(b, dtype=float).reshape(n, -1) if n else np.zeros((0, 1))
     f = phi_functions(a * h, order=2 if ramp else 1)
     a_delta = a @ f.phi1
     b_delta = f.phi1 @ b

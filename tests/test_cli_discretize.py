@@ -120,3 +120,11 @@ def test_improper_expression(capsys: pytest.CaptureFixture[str]) -> None:
     code, out, err = _run(capsys, "s^2/(s+1)", "--period", "1ms")
     assert code == 2 and out == ""
     assert "improper" in err and len(err.strip().splitlines()) == 1
+
+
+def test_fast_sampling_warns_about_coefficients(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, _ = _run(capsys, "1/((s+1)*(s^2+0.2*s+100))", "--period", "1ns")
+    assert code == 0
+    assert "coefficients in z place the poles only to" in out
+    code, out, _ = _run(capsys, "1/((s+1)*(s^2+0.2*s+100))", "--period", "1ms")
+    assert "coefficients in z place the poles" not in out

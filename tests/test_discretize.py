@@ -501,3 +501,23 @@ def test_realisation_is_reused_across_periods() -> None:
     assert _realisation(system) is first
     with pytest.raises(ValueError):
         first.a[0, 0] = 1.0
+
+
+def test_static_gain_with_fractional_delay() -> None:
+    """Closed form: a static gain K behind a delay of half a period is sampled as K u[k-1]
+    (the held value at kT - T/2 is u[k-1])."""
+    sys = zoh_with_delay(ContinuousSystem.from_expression("5"), 1e-3, 0.5e-3)
+    b, a = sys.firmware_coefficients()
+    np.testing.assert_allclose(b, [0.0, 5.0], atol=1e-15)
+    np.testing.assert_allclose(a, [1.0, 0.0], atol=1e-15)
+
+
+def test_coefficient_pole_error_grows_at_fast_sampling() -> None:
+    """Measured fact (common practice, no source: shift coefficients lose the poles as T -> 0):
+    for this 6th-order plant the z denominator places the poles to ~4e-14 in (z - 1) at
+    T/tau = 1e-1, ~6e-9 at 1e-2, but 3 % at 1e-3 and not at all at 1e-9, while the delta form
+    keeps them to 1e-15 (tested above against mpmath)."""
+    plant = ContinuousSystem.from_zeros_poles_gain([-3.0], FAST_POLES, 1000.0)
+    assert zero_order_hold(plant, 1e-1).coefficient_pole_error() < 1e-11
+    assert zero_order_hold(plant, 1e-3).coefficient_pole_error() > 1e-3
+    assert zero_order_hold(plant, 1e-9).coefficient_pole_error() > 1.0

@@ -28,6 +28,10 @@ from sampled.errors import InputError
 from sampled.systems import ContinuousSystem
 
 
+#: Relative pole error of the printed z coefficients above which the text output warns.
+COEFFICIENT_WARNING = 1e-6
+
+
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("expression", help='transfer in s, e.g. "10*(s+2)/(s*(0.5*s+1))"')
     parser.add_argument(
@@ -133,6 +137,7 @@ def _as_dict(system: ContinuousSystem, disc: DiscreteSystem, prewarp: float | No
         "delta_poles": [complex(x) for x in p.delta],
         "unit_circle_distance": p.unit_circle_distance,
         "notes": list(disc.notes),
+        "coefficient_pole_error": disc.coefficient_pole_error(),
     }
 
 
@@ -164,8 +169,16 @@ def _render(system: ContinuousSystem, disc: DiscreteSystem, prewarp: float | Non
             f"  z = {fmt_complex(complex(z)):<28} |z| = {abs(z):<18.15g} 1 - |z| = {dist:.6g}"
             f"   (delta pole {fmt_complex(complex(lam))} 1/s)"
         )
-    if disc.notes:
+    notes = list(disc.notes)
+    err = disc.coefficient_pole_error()
+    if err > COEFFICIENT_WARNING:
+        notes.append(
+            f"at this sample rate the coefficients in z place the poles only to {err:.2g} relative error "
+            "in (z - 1): a difference equation typed from them will not have these dynamics; implement "
+            "the delta form (x += T*(A_delta x + B_delta u)) or use longer coefficients"
+        )
+    if notes:
         lines.append("")
-        lines.extend(f"Note: {n}" for n in disc.notes)
+        lines.extend(f"Note: {n}" for n in notes)
     lines += ["", SAFETY_CAUTION]
     return "\n".join(lines)
