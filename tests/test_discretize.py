@@ -521,3 +521,43 @@ def test_coefficient_pole_error_grows_at_fast_sampling() -> None:
     assert zero_order_hold(plant, 1e-1).coefficient_pole_error() < 1e-11
     assert zero_order_hold(plant, 1e-3).coefficient_pole_error() > 1e-3
     assert zero_order_hold(plant, 1e-9).coefficient_pole_error() > 1.0
+
+
+@settings(max_examples=20)
+@given(
+    system=random_systems(),
+    period=PERIODS,
+    sub=st.integers(2, 5),
+    data=st.data(),
+)
+def test_fractional_delay_against_fast_rate_construction(
+    system: ContinuousSystem, period: float, sub: int, data: st.DataObject
+) -> None:
+    """Independent construction: when theta = j T / M, sample the plant M times faster (ZOH at T/M,
+    whole-sample delay N M + j), hold each input for M fast samples and keep every M-th output.
+    The pulse response must equal that of our state-augmented modified z-transform."""
+    j = data.draw(st.integers(1, sub - 1))
+    whole = data.draw(st.integers(0, 2))
+    delay = whole * period + j * period / sub
+    ours = zoh_with_delay(system, period, delay)
+    fast = zoh_with_delay(system, period / sub, whole * period + j * period / sub)
+    assert fast.order == system.order  # a whole number of fast periods: no augmentation
+    steps = 10
+    u = np.zeros(steps)
+    u[0] = 1.0
+    y_slow = _simulate(ours, u)
+    y_fast = _simulate(fast, np.repeat(u, sub))[::sub]
+    scale = max(1.0, float(np.max(np.abs(y_fast))))
+    np.testing.assert_allclose(y_slow, y_fast, rtol=1e-8, atol=1e-10 * scale)
+
+
+@settings(max_examples=20)
+@given(system=random_systems(), period=PERIODS, method=st.sampled_from(sorted(METHODS)))
+def test_delta_form_consistent_with_shift_form(system: ContinuousSystem, period: float, method: str) -> None:
+    """Identity at moderate periods: A_delta = (Phi - I)/T and B_delta = Gamma/T for every method
+    (where the subtraction is still harmless)."""
+    sys = discretize(system, period, method)  # type: ignore[arg-type]
+    n = sys.order
+    scale = max(1.0, float(np.linalg.norm(sys.a_delta)))
+    np.testing.assert_allclose(sys.a_delta, (sys.phi - np.eye(n)) / period, atol=1e-9 * scale)
+    np.testing.assert_allclose(sys.b_delta, sys.gamma / period, rtol=1e-12, atol=1e-12 * scale)
