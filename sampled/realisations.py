@@ -12,8 +12,8 @@ structure this module
    the poles and zeros computed the way the structure holds them (per section, or in the delta
    variable), and
 4. describes the arithmetic as a small straight-line :class:`Program`, which the bit-exact
-   simulation (:mod:`sampled.realisations` ``simulate_fixed``) and the C export
-   (:mod:`sampled.export.c`) both execute, so the code and the check cannot drift apart.
+   simulation :func:`simulate_fixed` and the C export (:mod:`sampled.export.c`) both follow
+   term by term, so the code and the check cannot drift apart.
 
 Structures (``Realisation``)
 ----------------------------
@@ -30,15 +30,20 @@ Structures (``Realisation``)
     closest to its first pole (with its conjugate when complex; a real zero is completed by the
     next closest real zero). Ordering: sections with poles closest to the unit circle come LAST
     (small gain first, the high-Q sections at the end, so their peaks are not amplified by later
-    sections); the gain sits in the first section; pure delays fill free numerator slots from
-    the first section on. Jackson (1970) gives the peak-gain argument for this order.
+    sections); pure delays fill free numerator slots from the first section on. Scaling: each
+    section's numerator is scaled so the response from the input to its output peaks at 1 over
+    frequency, the last section taking the remaining gain (so a tiny overall gain does not
+    round the intermediate signals to zero). Jackson (1970) gives the peak-gain argument for
+    this order and scaling.
 ``"delta"``
     delta-operator form with ``delta = (q - 1) / Delta``, ``Delta = 2**-m`` the power of two
     closest to the mean distance of the poles from ``z = 1``, so the stored coefficients are
     O(1) and multiplying by ``Delta`` is a shift: ``y = d0 x + v1``,
-    ``v_i <- v_i + Delta (e_i x - g_i y + v_(i+1))``. The states carry ``m`` extra guard bits
-    beyond the signal's fraction in the double-width register. The coefficients with respect to
-    ``delta = (q - 1) / T`` (the period) are reported by :func:`delta_coefficients`.
+    ``v_i <- v_i + Delta (e_i x - g_i y + v_(i+1))``. The states sit in the double-width
+    register with ``m + 2`` guard bits beyond the signal's fraction (fewer if that would leave
+    the register under three integer bits), so the small increments are not rounded away.
+    The coefficients with respect to ``delta = (q - 1) / T`` (the period) are reported by
+    :func:`delta_coefficients`.
 
 Arithmetic (fixed point)
 ------------------------
@@ -611,7 +616,43 @@ def _pair_sections(
                 break
         else:  # pragma: no cover - slot count guarantees a free slot
             raise AssertionError("no free numerator slot for a delay")
+    _scale_sections(sections)
     return tuple((tuple(s[0]), tuple(s[1])) for s in sections)  # type: ignore[misc]
+
+
+def _scale_sections(sections: list[list[list[Fraction]]], grid_points: int = 4096) -> None:
+    """Peak-gain scaling: the response from the input to each section's output but the last
+    peaks at 1 over frequency (sinusoidal inputs of full scale neither overflow nor vanish); the
+    last section takes the remaining gain. Exact: the scale factors telescope in Fractions, so
+    the product of the sections is unchanged. Sections whose cumulative peak is not finite (a
+    pole on the unit circle) keep their gain. Jackson (1970), l-infinity scaling, from memory.
+    """
+    if len(sections) < 2:
+        return
+    poles = np.concatenate([np.roots([float(c) for c in sec[1]]) for sec in sections if any(sec[1][1:])] or [np.zeros(0)])
+    # Uniform grid plus a fine comb around each pole angle, width a few times 1 - |p| (the
+    # half-power width of a resonance), so sharp peaks are not missed.
+    local = [
+        np.abs(np.angle(p)) + np.linspace(-4.0, 4.0, 129) * max(abs(1.0 - abs(p)), 1e-9)
+        for p in poles
+    ]
+    grid = np.clip(np.concatenate([np.linspace(0.0, np.pi, grid_points), *local]), 0.0, np.pi)
+    z_inv = np.exp(-1j * grid)
+    cumulative = np.ones_like(z_inv)
+    total = Fraction(1)
+    with np.errstate(all="ignore"):
+        for sec in sections[:-1]:
+            num = np.polyval([float(c) for c in sec[0][::-1]], z_inv)
+            den = np.polyval([float(c) for c in sec[1][::-1]], z_inv)
+            cumulative = cumulative * num / den
+            peak = float(np.max(np.abs(cumulative)))
+            if not (math.isfinite(peak) and peak > 0):
+                continue  # keep this section's gain
+            factor = 1 / Fraction(peak)
+            sec[0] = [c * factor for c in sec[0]]
+            cumulative = cumulative / peak
+            total *= factor
+    sections[-1][0] = [c / total for c in sections[-1][0]]
 
 
 def _build_sections(
@@ -708,10 +749,10 @@ def _build_delta(
     coefs = _coefficients(["d0"] + [f"e{i}" for i in range(1, n + 1)], e, fmt, rounding)
     coefs += _coefficients([f"g{i}" for i in range(1, n + 1)], g, fmt, rounding)
     if fmt is None:
-        guard = m
+        guard = 0  # unused in floating point
     else:
         # m guard bits resolve the Delta-scaled increments; two more for rounding, but keep at
-        # least two integer bits of headroom in the double-width register.
+        # least three integer bits in the double-width register.
         guard = max(0, min(m + 2, 2 * fmt.word_bits - 1 - fs - 3))
     sf = fs + guard
     variables = [Variable("x", "word", fs, False, "input"), Variable("y", "word", fs, False, "output")]
