@@ -561,3 +561,32 @@ def test_delta_form_consistent_with_shift_form(system: ContinuousSystem, period:
     scale = max(1.0, float(np.linalg.norm(sys.a_delta)))
     np.testing.assert_allclose(sys.a_delta, (sys.phi - np.eye(n)) / period, atol=1e-9 * scale)
     np.testing.assert_allclose(sys.b_delta, sys.gamma / period, rtol=1e-12, atol=1e-12 * scale)
+
+
+@settings(max_examples=25)
+@given(system=random_systems(), period=PERIODS)
+def test_matched_maps_roots_by_exponential(system: ContinuousSystem, period: float) -> None:
+    """Definition (closed form): poles p -> exp(pT), finite zeros q -> exp(qT), r - 1 extra zeros at
+    z = -1 for relative degree r >= 1, and the low-frequency gain matched (DC gain when there is no
+    root at s = 0). Reference values from numpy.exp of the accurately computed continuous roots;
+    our roots are compared through their polynomials (robust to repeated roots)."""
+    sys = matched_pole_zero(system, period)
+    poles, zeros = system.poles(), system.zeros()
+    rel = poles.size - zeros.size
+    ref_den = np.real(np.poly(np.exp(poles * period)))
+    ref_zeros = np.concatenate([np.exp(zeros * period), -np.ones(max(rel - 1, 0))])
+    ref_num_monic = np.real(np.poly(ref_zeros))
+    num, den = sys.transfer()
+    np.testing.assert_allclose(den, ref_den, rtol=1e-9, atol=1e-11)
+    np.testing.assert_allclose(num / num[0], ref_num_monic, rtol=1e-8, atol=1e-10)
+    if np.all(np.abs(poles) > 1e-9) and np.all(np.abs(zeros) > 1e-9):
+        assert sys.dc_gain() == pytest.approx(system.dc_gain(), rel=1e-8)
+
+
+def test_matched_complex_zero_pair_over_real_poles() -> None:
+    """A complex zero pair facing two real poles needs one second-order section; the result must
+    still have zeros exp(+-jT) and poles exp(-T), exp(-2T) (closed form)."""
+    t = 0.1
+    num, den = matched_pole_zero(ContinuousSystem.from_expression("(s^2+1)/((s+1)*(s+2))"), t).transfer()
+    np.testing.assert_allclose(num / num[0], np.real(np.poly([np.exp(1j * t), np.exp(-1j * t)])), rtol=1e-13)
+    np.testing.assert_allclose(den, np.poly([np.exp(-t), np.exp(-2 * t)]), rtol=1e-13)
