@@ -47,28 +47,25 @@ def dense_grid_margins(
     max_mag: float = math.inf,
 ) -> dict:
     """Independent brute-force margins: evaluate L by numpy.polyval on a log grid of ``points``
-    frequencies, find sign changes of log|L| and of (unwrapped phase + pi)/(2 pi) - n, and locate
-    each by linear interpolation in log w. Crossings of the negative real axis at |L| > max_mag
-    (poles on the axis) are dropped. Sensitivity peak = largest grid value of 1/|1 + L|, w = 0
-    included when L(0) is finite.
+    frequencies, find sign changes of log|L| and of (unwrapped phase + pi)/(2 pi) - n, locate each
+    by linear interpolation in log w, and evaluate L there directly for its margin. Crossings of
+    the negative real axis at |L| > max_mag (poles on the axis) are dropped. Sensitivity peak =
+    largest grid value of 1/|1 + L|, w = 0 included when L(0) is finite.
     """
+    tau = delay_s if period_s is None else delay_samples * period_s
+
+    def response(w):
+        x = 1j * w if period_s is None else np.exp(1j * w * period_s)
+        return np.polyval(num, x) / np.polyval(den, x) * np.exp(-1j * w * tau)
+
     w = np.geomspace(low, high, points)
-    if period_s is None:
-        x, tau = 1j * w, delay_s
-    else:
-        x, tau = np.exp(1j * w * period_s), delay_samples * period_s
-    big = np.abs(x) > 1
-    ell = np.empty(w.shape, complex)
-    ell[~big] = np.polyval(num, x[~big]) / np.polyval(den, x[~big])
-    ell[big] = np.polyval(num, x[big]) / np.polyval(den, x[big])
-    ell = ell * np.exp(-1j * w * tau)
+    ell = response(w)
     lw, lm, ph = np.log(w), np.log(np.abs(ell)), np.unwrap(np.angle(ell))
 
     i = np.flatnonzero(lm[:-1] * lm[1:] < 0)
     t = lm[i] / (lm[i] - lm[i + 1])
     wc = np.exp(lw[i] + t * (lw[i + 1] - lw[i]))
-    ph_c = ph[i] + t * (ph[i + 1] - ph[i])
-    pm = (np.degrees(ph_c) + 360.0) % 360.0 - 180.0
+    pm = np.degrees(np.angle(-response(wc)))
 
     u = (ph + math.pi) / (2 * math.pi)
     k = np.floor(u)
@@ -77,23 +74,16 @@ def dense_grid_margins(
     level = np.maximum(k[j], k[j + 1])
     t = (level - u[j]) / (u[j + 1] - u[j])
     wp = np.exp(lw[j] + t * (lw[j + 1] - lw[j]))
-    lm_p = lm[j] + t * (lm[j + 1] - lm[j])
-    keep = lm_p < math.log(max_mag)
-    gm = -20.0 / math.log(10.0) * lm_p[keep]
+    mag_p = np.abs(response(wp))
+    keep = mag_p < max_mag
+    gm = -20.0 * np.log10(mag_p[keep])
     peak_i = int(np.argmax(1.0 / np.abs(1.0 + ell)))
     peak, peak_w = float(1.0 / np.abs(1.0 + ell[peak_i])), float(w[peak_i])
     with np.errstate(divide="ignore", invalid="ignore"):
         at_zero = np.polyval(num, 1.0 if period_s else 0.0) / np.polyval(den, 1.0 if period_s else 0.0)
     if np.isfinite(at_zero) and 1.0 / abs(1.0 + at_zero) > peak:
         peak, peak_w = float(1.0 / abs(1.0 + at_zero)), 0.0
-    return {
-        "wc": wc,
-        "pm": pm,
-        "wp": wp[keep],
-        "gm": gm,
-        "peak": peak,
-        "peak_w": peak_w,
-    }
+    return {"wc": wc, "pm": pm, "wp": wp[keep], "gm": gm, "peak": peak, "peak_w": peak_w}
 
 
 def assert_matches_oracle(
@@ -542,11 +532,11 @@ def test_discrete_margins_against_dense_grid():
 def test_undamped_mode_on_the_axis():
     """L(s) = (s + 0.2) / (s (s^2 + 4)): poles on the imaginary axis at 0 and +-2j. The engine steps
     around w = 2; crossings against the dense grid (which drops the infinite-magnitude axis
-    crossing at the pole, |L| > 1e6), and |L| = 1 at each gain crossover by numpy.polyval."""
+    crossing at the pole, |L| > 1e4), and |L| = 1 at each gain crossover by numpy.polyval."""
     num, den = [1.0, 0.2], [1.0, 0.0, 4.0, 0.0]
     m = loop_margins(continuous_loop(num, den))
     low, high = m.band_rad_s
-    ref = dense_grid_margins(num, den, low, high, max_mag=1e6)
+    ref = dense_grid_margins(num, den, low, high, max_mag=1e4)
     assert_matches_oracle(m, ref, rel_peak=1e-5)
     for g in m.gain_crossovers:
         s = 1j * g.frequency_rad_s
@@ -616,6 +606,74 @@ def test_random_loops_against_dense_grid(loop):
     m = loop_margins(continuous_loop(num, den, delay_s=delay), band_rad_s=(1e-3, 1e3))
     ref = dense_grid_margins(num, den, 1e-3, 1e3, delay_s=delay, points=300_000)
     assert_matches_oracle(m, ref, rel_w=1e-6, abs_deg=1e-4, abs_db=1e-4, rel_peak=1e-4)
+
+
+@st.composite
+def random_discrete_loops(draw):
+    radius = st.floats(0.1, 1.15)
+    angle = st.floats(0.05, 3.0)
+    den = np.array([1.0])
+    for _ in range(draw(st.integers(1, 3))):
+        if draw(st.booleans()):
+            den = np.polymul(den, [1.0, -draw(st.floats(-0.95, 1.1))])
+        else:
+            r, a = draw(radius), draw(angle)
+            den = np.polymul(den, [1.0, -2 * r * math.cos(a), r * r])
+    if draw(st.booleans()):
+        den = np.polymul(den, [1.0, -1.0])  # integrator
+    order = len(den) - 1
+    zeros = draw(st.lists(st.floats(-0.9, 1.5), max_size=min(2, order)))
+    num = np.poly(zeros) if zeros else np.array([1.0])
+    log_gain = draw(st.floats(math.log(0.02), math.log(20.0)))
+    assume(len(num) < len(den) or abs(log_gain) > 0.05)
+    return list(math.exp(log_gain) * num), list(den), draw(st.integers(0, 3))
+
+
+@settings(derandomize=True, max_examples=20, deadline=None)
+@given(random_discrete_loops())
+def test_random_discrete_loops_against_dense_grid(loop):
+    """Random discrete loops (real and complex poles inside and outside the unit circle, integrator,
+    zeros anywhere, 0-3 samples of delay, T = 0.1 s): crossings strictly below pi/T and the
+    sensitivity peak against the independent grid (3e5 points up to just short of pi/T), and every
+    crossing AT pi/T has L real negative there (numpy.polyval). Tolerances 1e-3 deg / dB: poles
+    drawn as close as 0.998 to the unit circle make resonances the 3e5-point grid resolves coarsely
+    (see the mpmath regression test below for such a case)."""
+    num, den, delay = loop
+    period = 0.1
+    m = loop_margins(discrete_loop(num, den, period, delay_samples=delay), band_rad_s=(1e-3, 100.0))
+    nyquist = math.pi / period
+    ref = dense_grid_margins(
+        num, den, 1e-3, nyquist * (1 - 1e-9), period_s=period, delay_samples=delay, points=300_000
+    )
+    assert_matches_oracle(m, ref, rel_w=1e-6, abs_deg=1e-3, abs_db=1e-3, rel_peak=1e-4, w_max=nyquist)
+    at_end = np.polyval(num, -1.0) / np.polyval(den, -1.0) * (-1.0) ** delay
+    ends = [p for p in m.phase_crossovers if p.frequency_rad_s == nyquist]
+    assert len(ends) == (1 if at_end < 0 else 0)
+    for p in ends:
+        assert p.gain_margin_db == pytest.approx(-20 * math.log10(-at_end), abs=1e-9)
+
+
+def test_sharp_discrete_resonance_against_mpmath():
+    """Regression example found by the property test above: L(z) = 1/(z^2 - 1.1813 z + 0.99610),
+    poles at radius 0.998. The phase crossover is solved here independently in 40-digit arithmetic
+    (mpmath.findroot on Im L, started from the dense grid's estimate); the engine must agree to
+    1e-12 relative in frequency and 1e-9 dB."""
+    import mpmath
+
+    num, den, period = [1.0], [1.0, -1.181298411610375, 0.9960975646972656], 0.1
+    m = loop_margins(discrete_loop(num, den, period))
+    ref = dense_grid_margins(num, den, 1e-3, math.pi / period * (1 - 1e-9), period_s=period)
+    assert len(ref["wp"]) == 1 == len(m.phase_crossovers)
+    with mpmath.workdps(40):
+        def ell(w):
+            z = mpmath.exp(1j * w * mpmath.mpf(period))
+            return 1 / (z * z + mpmath.mpf(den[1]) * z + mpmath.mpf(den[2]))
+
+        wp = mpmath.findroot(lambda w: mpmath.im(ell(w)), mpmath.mpf(float(ref["wp"][0])))
+        gm = float(-20 * mpmath.log10(abs(ell(wp))))
+        assert mpmath.re(ell(wp)) < 0
+    assert m.phase_crossovers[0].frequency_rad_s == pytest.approx(float(wp), rel=1e-12)
+    assert m.gain_margin_db == pytest.approx(gm, abs=1e-9)
 
 
 # --------------------------------------------------------------------------- output and input
