@@ -357,6 +357,8 @@ def _export_fixed(impl: ImplementedController, name: str, comment: str, limits) 
         src.append(f"    x = ({wt})sat_word(x); /* {fmt.word_bits}-bit word in a wider container */")
     if not any(t for s in prog.steps for t in s.terms):
         src.append("    (void)p;")
+    if not states:
+        src.append("    (void)st; /* no states */")
     src += ["    " + line for line in body]
     if limits is not None:
         lo, hi = limits
@@ -413,6 +415,8 @@ def _export_double(impl: ImplementedController, name: str, comment: str, limits)
     src += [f"    st->{v.name} = 0.0;" for v in prog.states] or ["    st->unused = 0;"]
     src += ["}", "", f"double {name}_step({name}_state *st, double x)", "{", "    double acc;"]
     src += _locals(prog, "double", True)
+    if not prog.states:
+        src.append("    (void)st; /* no states */")
     for step in prog.steps:
         src.append(f"    /* {step.target}: {vars_[step.target].label} */")
         src.append("    acc = 0.0;")
