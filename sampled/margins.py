@@ -33,14 +33,17 @@ The headline margins mean what they say only when the closed loop is stable; pas
 closed-loop verdict as ``closed_loop_stable`` and read :attr:`Margins.classical_valid`.
 Crossings of the negative real axis at infinite or zero magnitude (where a pole or zero lies on
 the imaginary axis / unit circle, and the Nyquist contour detours around it) carry no finite gain
-margin and are not listed. A gain crossover at exactly ``w = 0`` is not listed (no phase there).
+margin and are not listed. A gain crossover at exactly ``w = 0`` is not listed (no delay moves
+it). A magnitude identically 1 or a phase identically -180 deg over a whole band (a unit-gain
+all-pass, a pure double integrator) is a continuum of crossings; such degenerate stretches are
+not listed either - their rounding noise is not taken for crossings.
 
 References
 ----------
-K. J. Astrom and R. M. Murray, "Feedback Systems", 2nd ed., Princeton University Press, 2021,
-section 10.3 (stability margins) and section 12.2 (sensitivity, maximum sensitivity).
+K. J. Astrom and R. M. Murray, "Feedback Systems", Princeton University Press, 2008, section 9.3
+(stability margins) and section 12.2 (maximum sensitivity) (section numbers from memory).
 G. F. Franklin, J. D. Powell and M. Workman, "Digital Control of Dynamic Systems", 3rd ed.,
-Addison-Wesley, 1998, section 7.4 (frequency response design of sampled loops).
+Addison-Wesley, 1998, chapter 7 (frequency response design of sampled loops) (from memory).
 R. P. Brent, "Algorithms for Minimization without Derivatives", Prentice-Hall, 1973, chapter 4.
 """
 
