@@ -30,7 +30,7 @@ from fractions import Fraction
 
 from sampled import __version__
 from sampled.errors import InputError
-from sampled.realisations import REALISATION_TITLES, ImplementedController, Program, Term, Variable
+from sampled.realisations import REALISATION_TITLES, ImplementedController, Program, Term
 
 _IDENT = re.compile(r"^[A-Za-z_][A-Za-z0-9_]{0,40}$")
 _C_KEYWORDS = frozenset(
