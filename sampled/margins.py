@@ -260,7 +260,28 @@ def analysis_band(loop: LoopGain) -> tuple[float, float]:
     -------
     (w_low, w_high) : tuple of float [rad/s]
     """
-    poles, zeros = equivalent_roots(loop)
+    return _band(loop, *_snap_origin(loop, *equivalent_roots(loop)))
+
+
+def _snap_origin(loop: LoopGain, poles: np.ndarray, zeros: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Set roots within ``_AXIS_TOL`` of the origin (relative to the fastest root, ``1/delay`` or
+    ``pi/T``) to exactly 0: a repeated integrator comes out of a root finder as a tiny pair
+    ``+-1e-8 j``, and ``L(0)`` evaluated there is rounding noise, not a value."""
+    finite = np.concatenate([poles, zeros])
+    finite = np.abs(finite[np.isfinite(finite)])
+    scale = float(finite.max()) if finite.size else 0.0
+    if loop.nyquist_rad_s is not None:
+        scale = max(scale, loop.nyquist_rad_s)
+    if loop.delay_s > 0:
+        scale = max(scale, 1.0 / loop.delay_s)
+    tol = _AXIS_TOL * scale
+    return (
+        np.where(np.abs(poles) <= tol, 0.0, poles),
+        np.where(np.abs(zeros) <= tol, 0.0, zeros),
+    )
+
+
+def _band(loop: LoopGain, poles: np.ndarray, zeros: np.ndarray) -> tuple[float, float]:
     mags = np.abs(np.concatenate([poles, zeros]))
     mags = mags[np.isfinite(mags) & (mags > 0)]
     nyquist = loop.nyquist_rad_s
@@ -316,9 +337,10 @@ def _delay_cap(loop: LoopGain, high: float) -> float:
     return min(high, max(cap, float(probe[change[-1] + 1]) * 10.0))
 
 
-def _axis_frequencies(loop: LoopGain, low: float, high: float) -> list[tuple[float, float]]:
+def _axis_frequencies(
+    poles: np.ndarray, zeros: np.ndarray, low: float, high: float
+) -> list[tuple[float, float]]:
     """(frequency, half-width) of poles and zeros on the imaginary axis inside the band."""
-    poles, zeros = equivalent_roots(loop)
     out: list[tuple[float, float]] = []
     for r in np.concatenate([poles, zeros]):
         w0 = abs(r.imag)
@@ -544,8 +566,9 @@ def loop_margins(
     Crossings beyond the band (for instance the endless phase crossovers of a delay loop whose
     gain tends to a nonzero constant) are not listed.
     """
+    poles, zeros = _snap_origin(loop, *equivalent_roots(loop))
     if band_rad_s is None:
-        low, high = analysis_band(loop)
+        low, high = _band(loop, poles, zeros)
     else:
         low, high = (float(band_rad_s[0]), float(band_rad_s[1]))
         if not (0 < low < high and math.isfinite(high)):
@@ -556,7 +579,7 @@ def loop_margins(
         if low >= high:
             raise InputError(f"the band lies above the Nyquist frequency {nyquist:g} rad/s", "band_rad_s")
 
-    gaps = _axis_frequencies(loop, low, high)
+    gaps = _axis_frequencies(poles, zeros, low, high)
     segments = _segments(low, high, gaps)
     budget = max(_MAX_POINTS // max(len(segments), 1), 1000)
     grids = [_segment_grid(loop, a, b, budget) for a, b in segments]
@@ -578,7 +601,8 @@ def loop_margins(
     # w = 0: L is real there (real coefficients); a finite negative value is a phase crossover.
     with np.errstate(all="ignore"):
         at_zero_val = complex(rational_response(loop, np.array([0.0]))[0])
-    at_zero = at_zero_val if np.isfinite(at_zero_val) else None
+    at_origin = bool(np.any(poles == 0) or np.any(zeros == 0))
+    at_zero = at_zero_val if np.isfinite(at_zero_val) and not at_origin else None
     phase_list: list[PhaseCrossover] = []
     if at_zero is not None and at_zero.real < 0:
         phase_list.append(PhaseCrossover(0.0, -20.0 * math.log10(abs(at_zero.real))))
