@@ -21,6 +21,7 @@ N. S. Nise, *Control Systems Engineering*, 6th ed., 2011, chapter 6 (zero rows, 
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from fractions import Fraction
@@ -55,6 +56,59 @@ def _asc_add(a: Sequence[Fraction], b: Sequence[Fraction]) -> list[Fraction]:
     return _asc_trim([Fraction(x) for x in out])
 
 
+def _primitive(p: list[int]) -> list[int]:
+    g = 0
+    for x in p:
+        g = math.gcd(g, x)
+        if g == 1:
+            return p
+    return [x // g for x in p] if g > 1 else p
+
+
+def _int_poly_gcd(a: list[int], b: list[int]) -> list[int]:
+    """Primitive gcd, positive leading coefficient, of two integer polynomials (descending powers).
+
+    sympy's dense gcd over the integers (heuristic gcd with a modular fallback) keeps the integers
+    small; Euclid over the rationals makes them grow exponentially with the degree, which made a
+    degree-20 eps case take most of a minute.
+    """
+    from sympy.polys.domains import ZZ
+    from sympy.polys.euclidtools import dup_gcd
+
+    g = _primitive([int(x) for x in dup_gcd([ZZ(x) for x in a], [ZZ(x) for x in b], ZZ)])
+    return [-x for x in g] if g[0] < 0 else g
+
+
+def _int_poly_exact_div(p: list[int], g: list[int]) -> list[int]:
+    """Quotient of integer polynomials (descending) known to divide exactly with g primitive."""
+    r = list(p)
+    out: list[int] = []
+    for i in range(len(p) - len(g) + 1):
+        q, rem = divmod(r[i], g[0])
+        assert rem == 0
+        out.append(q)
+        if q:
+            for j in range(1, len(g)):
+                r[i + j] -= q * g[j]
+    return out
+
+
+def _cancel_common_factor(n: list[Fraction], d: list[Fraction]) -> tuple[list[Fraction], list[Fraction]]:
+    """Divide the ascending-power polynomials n and d by their greatest common divisor, exactly,
+    working on integers (both are first scaled by the common denominator of their coefficients)."""
+    scale = 1
+    for x in (*n, *d):
+        scale = scale * x.denominator // math.gcd(scale, x.denominator)
+    ni = [int(x * scale) for x in reversed(n)]
+    di = [int(x * scale) for x in reversed(d)]
+    g = _int_poly_gcd(ni, di)
+    if len(g) <= 1:
+        return n, d
+    nq = _int_poly_exact_div(ni, g)
+    dq = _int_poly_exact_div(di, g)
+    return [Fraction(x) for x in reversed(nq)], [Fraction(x) for x in reversed(dq)]
+
+
 class Eps:
     """An exact rational function of ``eps`` (coefficients in ascending powers), judged as eps -> 0+."""
 
@@ -68,11 +122,8 @@ class Eps:
         # Cancel common powers of eps, then the common polynomial factor.
         k = min(next(i for i, x in enumerate(n) if x), next(i for i, x in enumerate(d) if x))
         n, d = n[k:], d[k:]
-        if len(d) > 1:
-            g = P.gcd(tuple(reversed(n)), tuple(reversed(d)))
-            if P.degree(g) > 0:
-                n = list(reversed(P.divmod_(tuple(reversed(n)), g)[0]))
-                d = list(reversed(P.divmod_(tuple(reversed(d)), g)[0]))
+        if len(d) > 1 and len(n) > 1:
+            n, d = _cancel_common_factor(n, d)
         lead = next(x for x in d if x)
         self.num = [x / lead for x in n]
         self.den = [x / lead for x in d]
