@@ -151,6 +151,9 @@ class DigitalResult:
     confirmed: str  # "exact" | "eigenvalues" | "not confirmed"
     order: int
     notes: tuple[str, ...] = ()
+    #: det(lambda I - A_delta) of the closed loop, exact for the matrix as stored: the well-conditioned
+    #: polynomial (its roots lambda = (z - 1)/T tend to the continuous poles as T -> 0).
+    delta_polynomial: P.ExactPoly | None = None
 
     @property
     def stability_distance(self) -> float:
@@ -171,6 +174,8 @@ class DigitalResult:
         out.update(_margin_fields(m))
         if m is not None:
             out["delay_margin_samples"] = m.delay_margin_samples
+        if self.delta_polynomial is not None:
+            out["characteristic_polynomial_delta"] = [float(c) for c in self.delta_polynomial]
         if self.exact is not None:
             e = self.exact.to_dict()
             out["exact"] = {
@@ -246,6 +251,7 @@ def judge_digital(loop: DigitalLoop, *, with_margins: bool = True, exact: bool |
     order = closed.order
     want_exact = exact if exact is not None else (order <= EXACT_ORDER_LIMIT or near)
     exact_v: Verdict | None = None
+    lam_poly: P.ExactPoly | None = None
     confirmed = "eigenvalues"
     verdict = float_verdict
     notes: list[str] = []
@@ -269,7 +275,7 @@ def judge_digital(loop: DigitalLoop, *, with_margins: bool = True, exact: bool |
         lg = discrete_loop_state_space(ol.a_delta, ol.b_delta, ol.c, ol.d, loop.period_s,
                                        delay_samples=ol.delay_samples, form="delta")
         margins = loop_margins(lg, closed_loop_stable=(verdict == "stable"))
-    return DigitalResult(verdict, z, dist, radius, margins, exact_v, confirmed, order, tuple(notes) + closed.notes)
+    return DigitalResult(verdict, z, dist, radius, margins, exact_v, confirmed, order, tuple(notes) + closed.notes, lam_poly)
 
 
 def _verdict_from_distance(z: np.ndarray, dist: np.ndarray) -> str:
@@ -489,10 +495,6 @@ def _loop_findings(spec: LoopSpec, loop: DigitalLoop, digital: DigitalResult, co
     return out
 
 
-#: Extra finding producers (hazard checks register here): f(spec, assessment_parts) -> list[Finding].
-EXTRA_FINDINGS: list[Any] = []
-
-
 def assess(spec: LoopSpec, period_s: float | None = None, *, controller: DiscreteSystem | None = None,
            with_margins: bool = True, with_continuous: bool = True) -> Assessment:
     """Assemble and judge the loop at ``period_s`` (default: the case's period)."""
@@ -507,8 +509,6 @@ def assess(spec: LoopSpec, period_s: float | None = None, *, controller: Discret
     requirements = check_requirements(spec, digital)
     findings = _loop_findings(spec, loop, digital, continuous)
     partial = Assessment(spec, t, digital, continuous, requirements, tuple(findings), loop)
-    for producer in EXTRA_FINDINGS:
-        findings.extend(producer(partial))
     from sampled.hazards import sampling_findings  # local: hazards simulates the loop assembled here
     findings.extend(sampling_findings(partial))
     return Assessment(spec, t, digital, continuous, requirements, tuple(findings), loop)
