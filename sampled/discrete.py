@@ -331,16 +331,27 @@ class DiscreteSystem:
         n = self.order
         if n == 0:
             return np.array([float(self.d[0, 0])]), np.array([1.0])
-        # C adj(gamma I - A) B = det(gamma I - A + B C) - det(gamma I - A); D enters separately
-        # (scipy's ss2tf folds it in as (D - 1) det(...), which cancels digits when D is small).
+        # Strictly proper part from the Markov parameters M_j = C A^j B and the (eigenvalue-based)
+        # denominator: C adj(gamma I - A) B = sum_k gamma^(n-k) sum_{i<k} den_i M_(k-1-i).
+        # Unlike det(gamma I - A + B C) - det(gamma I - A) this needs no eigenvalues of A - B C,
+        # which lose accuracy at repeated zeros (eps^(1/m) for an m-fold zero).
         lam = scipy.linalg.eigvals(self.a_delta)
         den = np.real(np.poly(lam))
-        closed = self.a_delta - self.b_delta @ self.c
-        strictly = np.real(np.poly(closed)) - den
-        # Coefficient k of a characteristic polynomial carries rounding of order
-        # eps C(n, k) rho^k (rho: matrix norm); below that the difference is structurally zero.
-        rho = max(float(np.linalg.norm(self.a_delta, 2)), float(np.linalg.norm(closed, 2)))
-        noise = np.array([16 * n * np.finfo(float).eps * comb(n, k) * rho**k for k in range(n + 1)])
+        markov = np.empty(n)
+        markov_bound = np.empty(n)
+        v = self.b_delta[:, 0].copy()
+        c_row = self.c[0]
+        norm_a = float(np.linalg.norm(self.a_delta, 2))
+        norm_cb = float(np.linalg.norm(c_row)) * float(np.linalg.norm(v))
+        for j in range(n):
+            markov[j] = float(c_row @ v)
+            markov_bound[j] = norm_cb * norm_a**j
+            v = self.a_delta @ v
+        strictly = np.zeros(n + 1)
+        noise = np.zeros(n + 1)
+        for k in range(1, n + 1):
+            strictly[k] = float(np.dot(den[:k], markov[k - 1 :: -1][:k]))
+            noise[k] = 8 * (n + 1) * np.finfo(float).eps * float(np.dot(np.abs(den[:k]), markov_bound[k - 1 :: -1][:k]))
         strictly = np.where(np.abs(strictly) <= noise, 0.0, strictly)
         num = strictly + self.d[0, 0] * den
         return num, den

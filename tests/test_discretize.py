@@ -590,3 +590,12 @@ def test_matched_complex_zero_pair_over_real_poles() -> None:
     num, den = matched_pole_zero(ContinuousSystem.from_expression("(s^2+1)/((s+1)*(s+2))"), t).transfer()
     np.testing.assert_allclose(num / num[0], np.real(np.poly([np.exp(1j * t), np.exp(-1j * t)])), rtol=1e-13)
     np.testing.assert_allclose(den, np.poly([np.exp(-t), np.exp(-2 * t)]), rtol=1e-13)
+
+
+def test_matched_triple_zero_at_minus_one_regression() -> None:
+    """Regression (found by hypothesis): 1/(s^2 (s^2 + 1)) has relative degree 4, so three zeros
+    at z = -1; the numerator must be k (z + 1)^3 to near double precision (it was off by 3e-8 when
+    the numerator came from the eigenvalues of A - B C, which a triple zero makes inaccurate)."""
+    sys = matched_pole_zero(ContinuousSystem.from_coefficients([1], [1, 0, 1, 0, 0]), 0.0117)
+    num, _ = sys.transfer()
+    np.testing.assert_allclose(num / num[0], [1, 3, 3, 1], rtol=1e-11)
