@@ -29,6 +29,7 @@ COMMANDS: tuple[str, ...] = (
     "table",
     "discretize",
     "schema",
+    "report",
 )
 
 EXIT_BAD_INPUT = 2

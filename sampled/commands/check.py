@@ -24,14 +24,24 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("case", help="case file (TOML)")
     parser.add_argument("--period", help="judge at this period instead of the case's ('250us', '4 kHz')")
     parser.add_argument("--json", action="store_true", help="print one JSON object")
+    parser.add_argument("--plot", metavar="FILE", help="also save the z-plane and step-response figure (.png, .svg or .pdf)")
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.plot is not None:
+        from sampled.report.figures import plot_format
+
+        plot_format(args.plot, "--plot")  # a bad suffix fails before any work
     spec = load_case(args.case)
     period = parse_period(args.period, "--period") if args.period is not None else None
     if period is not None:
         spec = spec.with_period(period)
     result = assess(spec)
+    if args.plot is not None:
+        from sampled.report.figures import check_figure, save_figure
+        from sampled.simulate import step_response
+
+        save_figure(check_figure(result, step_response(spec)), args.plot, "--plot")
     if args.json:
         out = result.to_dict()
         out["caution"] = SAFETY_CAUTION

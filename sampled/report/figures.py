@@ -361,8 +361,9 @@ def draw_step_response(ax_y: Axes, ax_u: Axes, step: Any) -> None:
                   ls=(0, (5, 2)), label="continuous design", zorder=2, gid="continuous-output")
     ax_y.plot(step.t_fine / factor, step.y_fine, color=S.DIGITAL, lw=S.LINE_WIDTH, zorder=3,
               label="as implemented: plant output y(t), exact between samples", gid="sampled-output-between-samples")
-    ax_y.plot(step.t_samples / factor, step.y_samples, ls="none", marker="o", ms=3.6, color=S.DIGITAL,
-              markeredgecolor=S.PAPER, markeredgewidth=0.5, zorder=4,
+    dense = step.t_samples.size > 120
+    ax_y.plot(step.t_samples / factor, step.y_samples, ls="none", marker="o", ms=2.2 if dense else 3.6, color=S.DIGITAL,
+              markeredgecolor=S.DIGITAL if dense else S.PAPER, markeredgewidth=0.0 if dense else 0.5, zorder=4,
               label="measured at the samples, y_m[k]", gid="sampled-output-at-samples")
     ax_y.set_ylabel("output (unit step)")
     ax_y.set_title(f"Unit step response, {_period_label(step.period_s)}")
