@@ -34,26 +34,28 @@ VerdictName = Literal["stable", "marginal", "unstable"]
 
 
 # ---- exact rational functions of eps, for the limit argument --------------------------------------
+# Polynomials in eps are lists of Python ints in ascending powers; an Eps holds a numerator and a
+# denominator in lowest terms with integer coefficients (Fraction arithmetic on the binary
+# fractions of doubles was the cost before).
 
-def _asc_trim(c: list[Fraction]) -> list[Fraction]:
+def _itrim(c: list[int]) -> list[int]:
     while len(c) > 1 and c[-1] == 0:
         c.pop()
     return c
 
 
-def _asc_mul(a: Sequence[Fraction], b: Sequence[Fraction]) -> list[Fraction]:
-    out = [Fraction(0)] * (len(a) + len(b) - 1)
+def _imul(a: Sequence[int], b: Sequence[int]) -> list[int]:
+    out = [0] * (len(a) + len(b) - 1)
     for i, x in enumerate(a):
         if x:
             for j, y in enumerate(b):
                 out[i + j] += x * y
-    return _asc_trim(out)
+    return _itrim(out)
 
 
-def _asc_add(a: Sequence[Fraction], b: Sequence[Fraction]) -> list[Fraction]:
+def _isub(a: Sequence[int], b: Sequence[int]) -> list[int]:
     n = max(len(a), len(b))
-    out = [(a[i] if i < len(a) else 0) + (b[i] if i < len(b) else 0) for i in range(n)]
-    return _asc_trim([Fraction(x) for x in out])
+    return _itrim([(a[i] if i < len(a) else 0) - (b[i] if i < len(b) else 0) for i in range(n)])
 
 
 def _primitive(p: list[int]) -> list[int]:
@@ -93,63 +95,98 @@ def _int_poly_exact_div(p: list[int], g: list[int]) -> list[int]:
     return out
 
 
-def _cancel_common_factor(n: list[Fraction], d: list[Fraction]) -> tuple[list[Fraction], list[Fraction]]:
-    """Divide the ascending-power polynomials n and d by their greatest common divisor, exactly,
-    working on integers (both are first scaled by the common denominator of their coefficients)."""
+def _ints(values: Sequence[object]) -> tuple[list[int], int]:
+    """Integer coefficients and the positive common denominator they were scaled by."""
+    fr = [Fraction(x) for x in values]  # type: ignore[arg-type]
     scale = 1
-    for x in (*n, *d):
+    for x in fr:
         scale = scale * x.denominator // math.gcd(scale, x.denominator)
-    ni = [int(x * scale) for x in reversed(n)]
-    di = [int(x * scale) for x in reversed(d)]
-    g = _int_poly_gcd(ni, di)
-    if len(g) <= 1:
-        return n, d
-    nq = _int_poly_exact_div(ni, g)
-    dq = _int_poly_exact_div(di, g)
-    return [Fraction(x) for x in reversed(nq)], [Fraction(x) for x in reversed(dq)]
+    return [int(x * scale) for x in fr], scale
 
 
 class Eps:
-    """An exact rational function of ``eps`` (coefficients in ascending powers), judged as eps -> 0+."""
+    """An exact rational function of ``eps`` (coefficients in ascending powers), judged as eps -> 0+.
 
-    __slots__ = ("num", "den")
+    Held in lowest terms with integer coefficients whose overall content is 1 and whose
+    denominator has a positive lowest-order coefficient (a unique form). ``num`` and ``den`` give
+    the same function as Fractions scaled so the denominator's lowest-order coefficient is 1.
+    """
 
-    def __init__(self, num: Sequence[Fraction], den: Sequence[Fraction] = (Fraction(1),)) -> None:
-        n, d = _asc_trim(list(num)), _asc_trim(list(den))
-        if all(x == 0 for x in n):
-            self.num, self.den = [Fraction(0)], [Fraction(1)]
+    __slots__ = ("_n", "_d")
+
+    def __init__(self, num: Sequence[object], den: Sequence[object] = (1,)) -> None:
+        n, sn = _ints(num)
+        d, sd = _ints(den)
+        # num/den = (n/sn)/(d/sd) = (n sd)/(d sn)
+        self._set([x * sd for x in n], [x * sn for x in d])
+
+    @classmethod
+    def _from_ints(cls, n: list[int], d: list[int]) -> "Eps":
+        e = cls.__new__(cls)
+        e._set(n, d)
+        return e
+
+    def _set(self, n: list[int], d: list[int]) -> None:
+        n, d = _itrim(list(n)), _itrim(list(d))
+        if not any(d):
+            raise ZeroDivisionError("division by an identically zero entry")
+        if not any(n):
+            self._n, self._d = [0], [1]
             return
-        # Cancel common powers of eps, then the common polynomial factor.
+        # Cancel common powers of eps, then the common polynomial factor, then the content.
         k = min(next(i for i, x in enumerate(n) if x), next(i for i, x in enumerate(d) if x))
         n, d = n[k:], d[k:]
         if len(d) > 1 and len(n) > 1:
-            n, d = _cancel_common_factor(n, d)
-        lead = next(x for x in d if x)
-        self.num = [x / lead for x in n]
-        self.den = [x / lead for x in d]
+            g = _int_poly_gcd(n[::-1], d[::-1])
+            if len(g) > 1:
+                n = _int_poly_exact_div(n[::-1], g)[::-1]
+                d = _int_poly_exact_div(d[::-1], g)[::-1]
+        c = 0
+        for x in (*n, *d):
+            c = math.gcd(c, x)
+        if next(x for x in d if x) < 0:
+            c = -c
+        self._n = [x // c for x in n]
+        self._d = [x // c for x in d]
+
+    @property
+    def num(self) -> list[Fraction]:
+        lead = next(x for x in self._d if x)
+        return [Fraction(x, lead) for x in self._n]
+
+    @property
+    def den(self) -> list[Fraction]:
+        lead = next(x for x in self._d if x)
+        return [Fraction(x, lead) for x in self._d]
 
     @staticmethod
     def of(x: "Entry") -> "Eps":
-        return x if isinstance(x, Eps) else Eps([Fraction(x)])
+        if isinstance(x, Eps):
+            return x
+        f = Fraction(x)
+        return Eps._from_ints([f.numerator], [f.denominator])
 
     def __add__(self, other: "Entry") -> "Eps":
         o = Eps.of(other)
-        return Eps(_asc_add(_asc_mul(self.num, o.den), _asc_mul(o.num, self.den)), _asc_mul(self.den, o.den))
+        return Eps._from_ints(
+            _isub(_imul(self._n, o._d), [-x for x in _imul(o._n, self._d)]), _imul(self._d, o._d)
+        )
 
     __radd__ = __add__
 
     def __neg__(self) -> "Eps":
-        return Eps([-x for x in self.num], self.den)
+        return Eps._from_ints([-x for x in self._n], self._d)
 
     def __sub__(self, other: "Entry") -> "Eps":
-        return self + (-Eps.of(other))
+        o = Eps.of(other)
+        return Eps._from_ints(_isub(_imul(self._n, o._d), _imul(o._n, self._d)), _imul(self._d, o._d))
 
     def __rsub__(self, other: "Entry") -> "Eps":
         return Eps.of(other) - self
 
     def __mul__(self, other: "Entry") -> "Eps":
         o = Eps.of(other)
-        return Eps(_asc_mul(self.num, o.num), _asc_mul(self.den, o.den))
+        return Eps._from_ints(_imul(self._n, o._n), _imul(self._d, o._d))
 
     __rmul__ = __mul__
 
@@ -157,40 +194,54 @@ class Eps:
         o = Eps.of(other)
         if o.is_zero():
             raise ZeroDivisionError("division by an identically zero entry")
-        return Eps(_asc_mul(self.num, o.den), _asc_mul(self.den, o.num))
+        return Eps._from_ints(_imul(self._n, o._d), _imul(self._d, o._n))
 
     def __rtruediv__(self, other: "Entry") -> "Eps":
         return Eps.of(other) / self
 
     def is_zero(self) -> bool:
-        return all(x == 0 for x in self.num)
+        return not any(self._n)
 
     def sign(self) -> int:
         """Sign of the limit as eps -> 0+ (0 only for the zero function)."""
         if self.is_zero():
             return 0
-        lead_n = next(x for x in self.num if x)
-        lead_d = next(x for x in self.den if x)
+        lead_n = next(x for x in self._n if x)
+        lead_d = next(x for x in self._d if x)
         return 1 if (lead_n > 0) == (lead_d > 0) else -1
 
     def __eq__(self, other: object) -> bool:
         if isinstance(other, (int, Fraction)):
-            return self.num == [Fraction(other)] and self.den == [Fraction(1)] or (other == 0 and self.is_zero())
+            return self == Eps.of(other)
         if isinstance(other, Eps):
-            return self.num == other.num and self.den == other.den
+            return self._n == other._n and self._d == other._d
         return NotImplemented
 
     def __hash__(self) -> int:  # pragma: no cover - entries are not hashed
-        return hash((tuple(self.num), tuple(self.den)))
+        return hash((tuple(self._n), tuple(self._d)))
 
     def __str__(self) -> str:
-        n = P.format_poly(tuple(reversed(self.num)), "eps")
-        if self.den == [Fraction(1)]:
+        num, den = self.num, self.den
+        n = P.format_poly(tuple(reversed(num)), "eps")
+        if den == [Fraction(1)]:
             return n
-        d = P.format_poly(tuple(reversed(self.den)), "eps")
+        d = P.format_poly(tuple(reversed(den)), "eps")
         return f"({n})/({d})"
 
     __repr__ = __str__
+
+
+def _routh_entry(a0: "Entry", a1: "Entry", b0: "Entry", b1: "Entry") -> "Entry":
+    """(b0 a1 - a0 b1) / b0, the Routh recurrence, with one reduction when eps is involved."""
+    if not any(isinstance(x, Eps) for x in (a0, a1, b0, b1)):
+        return (b0 * a1 - a0 * b1) / b0
+    A0, A1, B0, B1 = (Eps.of(x) for x in (a0, a1, b0, b1))
+    # b0 a1 - a0 b1 over the common denominator, then divided by b0 = B0n / B0d.
+    diff = _isub(
+        _imul(_imul(B0._n, A1._n), _imul(A0._d, B1._d)), _imul(_imul(A0._n, B1._n), _imul(B0._d, A1._d))
+    )
+    den = _imul(_imul(A1._d, A0._d), _imul(B1._d, B0._n))
+    return Eps._from_ints(diff, den)
 
 
 Entry = Union[Fraction, Eps]
@@ -379,7 +430,7 @@ def _array(coeffs: P.ExactPoly) -> tuple[list[list[Entry]], list[int], list[Auxi
         a, b = rows[i - 2], rows[i - 1]
         new: list[Entry] = []
         for k in range(width - 1):
-            new.append((b[0] * a[k + 1] - a[0] * b[k + 1]) / b[0])
+            new.append(_routh_entry(a[0], a[k + 1], b[0], b[k + 1]))
         new.append(Fraction(0))
         rows.append(new)
         fix(i)
