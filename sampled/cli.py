@@ -26,6 +26,7 @@ from sampled.errors import SampledError
 #: Command modules under ``sampled.commands``, in the order ``--help`` lists them.
 COMMANDS: tuple[str, ...] = (
     "check",
+    "sweep",
     "table",
     "discretize",
     "schema",
