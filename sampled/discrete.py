@@ -331,28 +331,45 @@ class DiscreteSystem:
         n = self.order
         if n == 0:
             return np.array([float(self.d[0, 0])]), np.array([1.0])
-        # Strictly proper part from the Markov parameters M_j = C A^j B and the (eigenvalue-based)
-        # denominator: C adj(gamma I - A) B = sum_k gamma^(n-k) sum_{i<k} den_i M_(k-1-i).
-        # Unlike det(gamma I - A + B C) - det(gamma I - A) this needs no eigenvalues of A - B C,
-        # which lose accuracy at repeated zeros (eps^(1/m) for an m-fold zero).
+        # The strictly proper part C adj(gamma I - A) B has two exact expressions; each can lose
+        # digits, in different places, so each coefficient is taken from the one whose rounding
+        # bound is smaller:
+        #  (1) Markov parameters M_j = C A^j B: coefficient k = sum_{i<k} den_i M_(k-1-i); cancels
+        #      when ||A||^j grows (stiff systems), fine at repeated zeros;
+        #  (2) det(gamma I - A + B C) - det(gamma I - A) from eigenvalues; cancels when the
+        #      numerator is small beside the denominator (e.g. zeros far out, at z = -1).
+        eps = np.finfo(float).eps
         lam = scipy.linalg.eigvals(self.a_delta)
         den = np.real(np.poly(lam))
+        closed = self.a_delta - self.b_delta @ self.c
+        mu = scipy.linalg.eigvals(closed)
+        norm_a = float(np.linalg.norm(self.a_delta, 2))
+        norm_closed = float(np.linalg.norm(closed, 2))
+        den_abs = np.real(np.poly(-np.abs(lam)))
+        closed_abs = np.real(np.poly(-np.abs(mu)))
+        strict_eig = np.real(np.poly(mu)) - den
+        bound_eig = np.zeros(n + 1)
+        bound_eig[1:] = 8 * (n + 1) * eps * (
+            closed_abs[1:] + den_abs[1:] + norm_closed * closed_abs[:-1] + norm_a * den_abs[:-1]
+        )
         markov = np.empty(n)
         markov_bound = np.empty(n)
         v = self.b_delta[:, 0].copy()
         c_row = self.c[0]
-        norm_a = float(np.linalg.norm(self.a_delta, 2))
         norm_cb = float(np.linalg.norm(c_row)) * float(np.linalg.norm(v))
         for j in range(n):
             markov[j] = float(c_row @ v)
             markov_bound[j] = norm_cb * norm_a**j
             v = self.a_delta @ v
-        strictly = np.zeros(n + 1)
-        noise = np.zeros(n + 1)
+        strict_markov = np.zeros(n + 1)
+        bound_markov = np.zeros(n + 1)
         for k in range(1, n + 1):
-            strictly[k] = float(np.dot(den[:k], markov[k - 1 :: -1][:k]))
-            noise[k] = 8 * (n + 1) * np.finfo(float).eps * float(np.dot(np.abs(den[:k]), markov_bound[k - 1 :: -1][:k]))
-        strictly = np.where(np.abs(strictly) <= noise, 0.0, strictly)
+            strict_markov[k] = float(np.dot(den[:k], markov[k - 1 :: -1][:k]))
+            bound_markov[k] = 8 * (n + 1) * eps * float(np.dot(np.abs(den[:k]), markov_bound[k - 1 :: -1][:k]))
+        use_markov = bound_markov <= bound_eig
+        strictly = np.where(use_markov, strict_markov, strict_eig)
+        bound = np.where(use_markov, bound_markov, bound_eig)
+        strictly = np.where(np.abs(strictly) <= bound, 0.0, strictly)
         num = strictly + self.d[0, 0] * den
         return num, den
 

@@ -183,3 +183,16 @@ def test_static_gain_and_pure_delay() -> None:
     np.testing.assert_array_equal(b, [0, 0, 2.0])
     np.testing.assert_array_equal(a, [1.0, 0, 0])
     assert sys.dc_gain() == 2.0
+
+
+def test_delta_transfer_of_stiff_system() -> None:
+    """Closed form (limit): the ZOH delta transfer is G(s) + O(T ||A||). For a stiff plant (poles
+    from -1 to -1e5, zeros -10 and -1e4) at T = 1e-9 s every numerator and denominator coefficient
+    must be within 2e-4 relative of the continuous one; the Markov-parameter formula alone loses
+    the constant numerator term here (its rounding bound exceeds the value), the eigenvalue
+    formula alone loses repeated zeros at z = -1, so each coefficient uses the better one."""
+    g = ContinuousSystem.from_zeros_poles_gain([-10.0, -1e4], [-1.0, -1e3, -1e5, [-50, 300], [-50, -300]], 1e9)
+    num, den = zero_order_hold(g, 1e-9).delta_transfer()
+    np.testing.assert_allclose(den, g.den, rtol=2e-4)
+    np.testing.assert_allclose(num[-3:], g.num, rtol=2e-4)
+    np.testing.assert_array_equal(num[:-3], 0.0)
