@@ -503,10 +503,11 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
                 ax.axvline(b.period_s, color=color, lw=S.THIN, ls="-." if b.kind != "stability" else "-")
             ax.axvline(sweep.case_period_s, color=S.INK, lw=S.THIN * 1.2, ls=(0, (1, 1)))
         top_ax = axes[0]
-        for b in sweep.boundaries:
+        for i, b in enumerate(sorted(sweep.boundaries, key=lambda b: b.period_s)):
             color = S.UNSTABLE if b.kind == "stability" else S.MUTED
             what = "becomes " + b.becomes if b.kind == "stability" else f"{b.kind}: {b.becomes}"
-            top_ax.annotate(f"{format_time(b.period_s)} {what}", (b.period_s, 1.0), xycoords=("data", "axes fraction"),
+            # Alternate the height of the labels so neighbouring boundaries stay readable.
+            top_ax.annotate(f"{format_time(b.period_s)} {what}", (b.period_s, 1.0 - 0.45 * (i % 2)), xycoords=("data", "axes fraction"),
                             xytext=(3, -3), textcoords="offset points", rotation=90, va="top", ha="left",
                             fontsize=S.FONT_SIZE - 3, color=color)
         top_ax.annotate("case period", (sweep.case_period_s, 0.0), xycoords=("data", "axes fraction"),
