@@ -19,6 +19,9 @@ from hypothesis import strategies as st
 
 from routh_truth import (
     Built,
+    left_pair,
+    quad,
+    right_pair,
     built_polynomials,
     counts_from_roots,
     imag_pair,
@@ -179,6 +182,20 @@ def test_eps_entries_are_exact_functions() -> None:
     assert e1 == (Eps([F(0), F(1)]) - 1) / Eps([F(0), F(1)])
     assert table.signs == (1, 1, -1, 1)
     assert counts(table) == mpmath_counts((F(1), F(0), F(1), F(1)))
+
+
+def test_eps_row_with_imaginary_roots_regression() -> None:
+    """Found by hypothesis (kept as a regression): (s^2 + s + 13/36) * quad(1/4, 1/3) *
+    (s^2 + 1/4) * (s^2 - s + 5/4). The s^9 coefficient is zero, so the eps limit is used; it moves
+    the pair +-j/2 off the axis and the first column alone counts it as left-half-plane roots.
+    Truth from the factors (quadratic formula): 4 left, 2 on the axis (+-j/2), 4 right."""
+    b = build([left_pair(F(1, 2), F(1, 3)), quad(F(1, 4), F(1, 3)), imag_pair(F(1, 4)), right_pair(F(1, 2), F(1))])
+    assert b.coeffs[1] == 0
+    table = routh_array(b.coeffs)
+    assert table.eps_rows
+    assert counts(table) == (4, 2, 4) == mpmath_counts(b.coeffs)
+    assert table.symmetric_factor is not None
+    assert any("gcd(p(s), p(-s))" in n for n in table.notes)
 
 
 def test_degree_zero_and_one() -> None:

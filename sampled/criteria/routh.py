@@ -326,6 +326,7 @@ class RouthArray:
     repeated_imaginary: bool
     eps_rows: tuple[int, ...]
     auxiliary: tuple[AuxiliaryStep, ...]
+    symmetric_factor: tuple[Fraction, ...] | None = None
 
     @property
     def degree(self) -> int:
@@ -361,6 +362,12 @@ class RouthArray:
             out.append(
                 f"row {v}^{self.powers[a.row]} was all zeros: replaced by the derivative of the auxiliary "
                 f"polynomial {aux}, which has {a.imaginary_roots} root(s) on the imaginary axis"
+            )
+        if self.symmetric_factor is not None:
+            out.append(
+                "the eps limit moves imaginary-axis roots off the axis, so the counts come from "
+                f"gcd(p(s), p(-s)) = {P.format_poly(self.symmetric_factor, 's')} (roots symmetric about "
+                "the origin, axis roots counted exactly by Sturm's theorem) and the array of the quotient"
             )
         if self.repeated_imaginary:
             out.append("repeated roots on the imaginary axis: unstable (the response grows like t)")
@@ -475,6 +482,18 @@ def routh_array(coefficients: Sequence[object]) -> RouthArray:
         aux_steps.append(AuxiliaryStep(step.row, step.polynomial, j))
     if aux_steps:
         imaginary_nonzero = aux_steps[0].imaginary_roots
+    symmetric: P.ExactPoly | None = None
+    if eps_rows:
+        # The eps limit is a perturbation: it moves roots that sit on the imaginary axis off it,
+        # and the first column then counts them on one side. Roots placed symmetrically about the
+        # origin (those on the axis among them) are the roots of h = gcd(p(s), p(-s)); count h's
+        # axis roots exactly and use the array of p / h, which has none, for the rest.
+        h = P.gcd(reduced, P.reflect_negative(reduced))
+        if P.degree(h) > 0:
+            symmetric = h
+            rest = routh_array(P.divmod_(reduced, h)[0])
+            imaginary_nonzero = _imaginary_roots_of_symmetric(h)
+            right = rest.right + (P.degree(h) - imaginary_nonzero) // 2
     left = n - right - imaginary_nonzero
     imaginary = imaginary_nonzero + m0
     repeated = m0 >= 2
@@ -487,14 +506,52 @@ def routh_array(coefficients: Sequence[object]) -> RouthArray:
         powers=tuple(n - i for i in range(len(rows))),
         first_column=first,
         signs=signs,
-        sign_changes=right,
+        sign_changes=_changes(signs),
         left=left,
         imaginary=imaginary,
         right=right,
         repeated_imaginary=repeated,
         eps_rows=tuple(eps_rows),
         auxiliary=tuple(aux_steps),
+        symmetric_factor=symmetric,
     )
+
+
+def _sturm_negative_roots(p: P.ExactPoly) -> int:
+    """Distinct real roots of a square-free ``p`` in (-inf, 0), by Sturm's theorem (p(0) != 0).
+
+    Reference: C. Sturm, 1835; e.g. S. Basu, R. Pollack, M.-F. Roy, *Algorithms in Real Algebraic
+    Geometry*, 2nd ed., 2006, theorem 2.50.
+    """
+    seq = [P.trim(p), P.derivative(p)]
+    while P.degree(seq[-1]) > 0:
+        _, r = P.divmod_(seq[-2], seq[-1])
+        if P.is_zero(r):
+            break
+        seq.append(P.scale(r, Fraction(-1)))
+    at_minus_inf = [(1 if q[0] > 0 else -1) * (-1) ** P.degree(q) for q in seq if not P.is_zero(q)]
+    at_zero = [(q[-1] > 0) - (q[-1] < 0) for q in seq]
+    return _changes(at_minus_inf) - _changes(at_zero)
+
+
+def _imaginary_roots_of_symmetric(h: P.ExactPoly) -> int:
+    """Roots on the imaginary axis, with multiplicity, of an even polynomial h(s) = H(s^2), H(0) != 0.
+
+    s = j w is a root exactly when x = s^2 = -w^2 < 0 is a root of H; each negative root of H of
+    multiplicity k gives the pair +-j w, each k times. Multiplicities come from peeling
+    f -> gcd(f, f'), each step removing one copy of every root.
+    """
+    big_h = P.trim(h[0::2]) if P.degree(h) % 2 == 0 else None
+    if big_h is None or any(c != 0 for c in h[1::2]):  # pragma: no cover - gcd(p, p(-s)) is even here
+        raise ArithmeticError("expected an even polynomial")
+    count = 0
+    f = big_h
+    while P.degree(f) > 0:
+        g = P.gcd(f, P.derivative(f))
+        square_free = P.divmod_(f, g)[0]
+        count += _sturm_negative_roots(square_free)
+        f = g
+    return 2 * count
 
 
 def _has_repeated_imaginary(p: P.ExactPoly) -> bool:
