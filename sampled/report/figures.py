@@ -340,6 +340,7 @@ def pole_paths_figure(spec: LoopSpec, periods_s: Sequence[float] | np.ndarray) -
             ax.text(0.99, 0.01, f"{hidden} pole positions beyond |z| = {r:g} not shown", transform=ax.transAxes,
                     ha="right", va="bottom", color=S.MUTED, fontsize=S.FONT_SIZE - 2)
         bar = fig.colorbar(sc, ax=ax, shrink=0.85, pad=0.02)
+        bar.solids.set_rasterized(False)  # vector colour bar: no embedded image in SVG output
         bar.set_label("sample period")
         bar.ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _pos: format_time(v)))
         bar.ax.yaxis.set_minor_formatter(FuncFormatter(lambda v, _pos: ""))
@@ -583,6 +584,7 @@ def stability_chart_figure(chart: Any) -> Figure:
         ax.set_ylabel("loop-gain multiplier")
         ax.grid(False)
         bar = fig.colorbar(mesh, ax=ax, pad=0.02, extend="max")
+        bar.solids.set_rasterized(False)
         bar.set_label("spectral radius (above 1: unstable)")
         ax.set_title("Stability over period and loop gain")
         ax.legend(loc="upper right", fontsize=S.FONT_SIZE - 2, frameon=True, facecolor=S.PAPER, edgecolor=S.RULE)
