@@ -48,7 +48,8 @@ SECTIONS: tuple[tuple[str, str], ...] = (
     ("reproduce", "Reproduce this report"),
 )
 
-#: Periods drawn in the pole-path figure and in the stability chart (log-spaced over the sweep range).
+#: Periods drawn in the pole-path figure and (at most, never more than the sweep has) in the
+#: stability chart, log-spaced over the sweep range.
 PATH_POINTS = 120
 CHART_PERIOD_POINTS = 72
 
@@ -109,7 +110,8 @@ def collect(
     kwargs: dict[str, Any] = {} if margin_points is None else {"margin_points": margin_points}
     sweep = sweep_periods(spec, periods, **kwargs)
     lo, hi = float(sweep.periods_s[0]), float(sweep.periods_s[-1])
-    chart_periods = np.geomspace(lo, hi, CHART_PERIOD_POINTS) if hi > lo else np.array([lo])
+    chart_points = min(CHART_PERIOD_POINTS, max(len(sweep.periods_s), 2))
+    chart_periods = np.geomspace(lo, hi, chart_points) if hi > lo else np.array([lo])
     gain_grid = np.asarray(default_gains(spec) if gains is None else gains, dtype=float)
     say(f"mapping stability over {chart_periods.size} periods x {gain_grid.size} loop-gain multipliers")
     chart = stability_chart(spec, chart_periods, gain_grid)
