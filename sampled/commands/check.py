@@ -3,6 +3,7 @@
 Examples:
   sampled check cases/kiln_heater_plc.toml
   sampled check cases/drone_motor_speed.toml --period 250us --json
+  sampled check cases/camera_gimbal_pitch.toml --plot gimbal.png
 
 Exit status: 0 the loop as implemented is stable and meets every requirement, 1 it does not,
 2 bad input.

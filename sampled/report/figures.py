@@ -86,6 +86,13 @@ def _time_axis(t_s: np.ndarray) -> tuple[float, str]:
     return 1e-9, "ns"
 
 
+def _vector_solids(bar: Any) -> None:
+    """Draw a colour bar as vector quads (no embedded image in SVG), edges filled to hide seams."""
+    bar.solids.set_rasterized(False)
+    bar.solids.set_edgecolor("face")
+    bar.solids.set_linewidth(0.2)
+
+
 def _draw_unit_circle(ax: Axes) -> None:
     theta = np.linspace(0.0, 2.0 * math.pi, 721)
     ax.plot(np.cos(theta), np.sin(theta), color=S.INK, lw=S.THIN, zorder=1, gid="unit-circle")
@@ -340,7 +347,7 @@ def pole_paths_figure(spec: LoopSpec, periods_s: Sequence[float] | np.ndarray) -
             ax.text(0.99, 0.01, f"{hidden} pole positions beyond |z| = {r:g} not shown", transform=ax.transAxes,
                     ha="right", va="bottom", color=S.MUTED, fontsize=S.FONT_SIZE - 2)
         bar = fig.colorbar(sc, ax=ax, shrink=0.85, pad=0.02)
-        bar.solids.set_rasterized(False)  # vector colour bar: no embedded image in SVG output
+        _vector_solids(bar)
         bar.set_label("sample period")
         bar.ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _pos: format_time(v)))
         bar.ax.yaxis.set_minor_formatter(FuncFormatter(lambda v, _pos: ""))
@@ -477,7 +484,7 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
     ]
     with styled():
         fig = _figure(7.2, 9.0)
-        axes = fig.subplots(len(panels), 1, sharex=True)
+        axes = fig.subplots(len(panels), 1, sharex=True, gridspec_kw={"height_ratios": [1.5] + [1.0] * (len(panels) - 1)})
         for ax, (label, gid, values, limit, cont_value, _sense) in zip(axes, panels):
             _shade_unstable(ax, periods, stable)
             if gid == "spectral-radius":
@@ -488,7 +495,11 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
             else:
                 ax.plot(periods, values, color=S.DIGITAL, marker="." if np.count_nonzero(ok) < 60 else None,
                         ms=3, gid=gid)
-                if not np.any(np.isfinite(values)):
+                finite = values[np.isfinite(values)]
+                if gid == "sensitivity-peak" and finite.size and np.min(finite) > 0 and np.max(finite) / np.min(finite) > 20:
+                    ax.set_yscale("log")
+                    ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))
+                if not finite.size:
                     ax.text(0.5, 0.5, "no finite value where the loop is stable", transform=ax.transAxes,
                             ha="center", va="center", color=S.MUTED, fontsize=S.FONT_SIZE - 1.5)
                 if limit is not None:
@@ -504,11 +515,10 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
                 ax.axvline(b.period_s, color=color, lw=S.THIN, ls="-." if b.kind != "stability" else "-")
             ax.axvline(sweep.case_period_s, color=S.INK, lw=S.THIN * 1.2, ls=(0, (1, 1)))
         top_ax = axes[0]
-        for i, b in enumerate(sorted(sweep.boundaries, key=lambda b: b.period_s)):
+        for b in sweep.boundaries:
             color = S.UNSTABLE if b.kind == "stability" else S.MUTED
-            what = "becomes " + b.becomes if b.kind == "stability" else f"{b.kind}: {b.becomes}"
-            # Alternate the height of the labels so neighbouring boundaries stay readable.
-            top_ax.annotate(f"{format_time(b.period_s)} {what}", (b.period_s, 1.0 - 0.45 * (i % 2)), xycoords=("data", "axes fraction"),
+            what = b.becomes if b.kind == "stability" else f"{SHORT_NAMES.get(b.kind, b.kind)} {b.becomes}"
+            top_ax.annotate(f"{format_time(b.period_s)} {what}", (b.period_s, 1.0), xycoords=("data", "axes fraction"),
                             xytext=(3, -3), textcoords="offset points", rotation=90, va="top", ha="left",
                             fontsize=S.FONT_SIZE - 3, color=color)
         top_ax.annotate("case period", (sweep.case_period_s, 0.0), xycoords=("data", "axes fraction"),
@@ -531,6 +541,11 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
                             Line2D([], [], color=S.STABLE, lw=S.LINE_WIDTH, label="largest period meeting requirements")],
                    loc="outside lower center", ncols=4, fontsize=S.FONT_SIZE - 2.5)
     return fig
+
+
+#: Short labels of requirement boundaries in the margins figure (the legend explains the line styles).
+SHORT_NAMES = {"gain_margin_db": "gain margin", "phase_margin_deg": "phase margin",
+               "delay_margin_s": "delay margin", "sensitivity_peak": "sens. peak"}
 
 
 def _limit(limits: dict[str, Any], name: str) -> float | None:
@@ -565,7 +580,8 @@ def stability_chart_figure(chart: Any) -> Figure:
         lo = max(0.0, min(float(np.nanmin(radius)), 0.99)) if radius.size else 0.0
         norm = TwoSlopeNorm(vmin=lo, vcenter=1.0, vmax=2.0)
         mesh = ax.pcolormesh(periods, gains, np.clip(radius, lo, 2.0), cmap=S.RADIUS_MAP, norm=norm,
-                             shading="nearest", rasterized=False, gid="spectral-radius-map")
+                             shading="nearest", rasterized=False, edgecolors="face", linewidth=0.2,
+                             gid="spectral-radius-map")
         if stable.any() and (~stable).any() and min(stable.shape) > 1:
             ax.contour(periods, gains, stable.astype(float), levels=[0.5], colors=[S.INK], linewidths=1.8)
             ax.plot([], [], color=S.INK, lw=1.8, label="stability boundary", gid="stability-boundary")
@@ -584,7 +600,7 @@ def stability_chart_figure(chart: Any) -> Figure:
         ax.set_ylabel("loop-gain multiplier")
         ax.grid(False)
         bar = fig.colorbar(mesh, ax=ax, pad=0.02, extend="max")
-        bar.solids.set_rasterized(False)
+        _vector_solids(bar)
         bar.set_label("spectral radius (above 1: unstable)")
         ax.set_title("Stability over period and loop gain")
         ax.legend(loc="upper right", fontsize=S.FONT_SIZE - 2, frameon=True, facecolor=S.PAPER, edgecolor=S.RULE)

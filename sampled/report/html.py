@@ -20,6 +20,7 @@ import math
 import platform
 import re
 import shlex
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -52,6 +53,9 @@ SECTIONS: tuple[tuple[str, str], ...] = (
 #: stability chart, log-spaced over the sweep range.
 PATH_POINTS = 120
 CHART_PERIOD_POINTS = 72
+
+#: Seconds between progress messages during the sweep.
+PROGRESS_EVERY_S = 3.0
 
 Progress = Callable[[str], None]
 
@@ -108,6 +112,17 @@ def collect(
     periods = np.asarray(default_periods(spec) if periods_s is None else periods_s, dtype=float)
     say(f"sweeping {periods.size} periods from {format_time(float(np.min(periods)))} to {format_time(float(np.max(periods)))}")
     kwargs: dict[str, Any] = {} if margin_points is None else {"margin_points": margin_points}
+    if progress is not None:
+        last = [time.monotonic()]
+
+        def tick(done: int, total: int) -> None:
+            # At most one message every few seconds, and only while the sweep is long.
+            now = time.monotonic()
+            if now - last[0] >= PROGRESS_EVERY_S and done < total:
+                say(f"sweep: {done} of {total} evaluations")
+                last[0] = now
+
+        kwargs["progress"] = tick
     sweep = sweep_periods(spec, periods, **kwargs)
     lo, hi = float(sweep.periods_s[0]), float(sweep.periods_s[-1])
     chart_points = min(CHART_PERIOD_POINTS, max(len(sweep.periods_s), 2))
