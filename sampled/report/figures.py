@@ -370,12 +370,13 @@ def draw_step_response(ax_y: Axes, ax_u: Axes, step: Any) -> None:
     ax_y.plot(step.t_fine / factor, step.y_fine, color=S.DIGITAL, lw=S.LINE_WIDTH, zorder=3,
               label="as implemented: plant output y(t), exact between samples", gid="sampled-output-between-samples")
     dense = step.t_samples.size > 120
-    ax_y.plot(step.t_samples / factor, step.y_samples, ls="none", marker="o", ms=2.2 if dense else 3.6, color=S.DIGITAL,
+    size = 3.6 if not dense else (2.2 if step.t_samples.size <= 400 else 1.4)
+    ax_y.plot(step.t_samples / factor, step.y_samples, ls="none", marker="o", ms=size, color=S.DIGITAL,
               markeredgecolor=S.DIGITAL if dense else S.PAPER, markeredgewidth=0.0 if dense else 0.5, zorder=4,
               label="measured at the samples, y_m[k]", gid="sampled-output-at-samples")
     ax_y.set_ylabel("output (unit step)")
     ax_y.set_title(f"Unit step response, {_period_label(step.period_s)}")
-    ax_y.legend(loc="lower right", fontsize=S.FONT_SIZE - 2)
+    ax_y.legend(loc="lower right", fontsize=S.FONT_SIZE - 2, markerscale=3.6 / size)
     _clip_growth(ax_y, [step.y_fine] + ([step.continuous_y] if step.continuous_y is not None else []))
     ax_u.plot(step.t_fine / factor, step.u_fine, color=S.ACTUATOR, lw=S.LINE_WIDTH * 0.9, drawstyle="steps-post",
               label="actuator command as held", gid="actuator-staircase")
@@ -386,8 +387,8 @@ def draw_step_response(ax_y: Axes, ax_u: Axes, step: Any) -> None:
     ax_u.legend(loc="upper right", fontsize=S.FONT_SIZE - 2)
     _clip_growth(ax_u, [step.u_fine])
     if step.compute_delay_s > 0:
-        ax_u.text(0.01, 0.02, f"held {format_time(step.compute_delay_s)} after each sample (computation delay)",
-                  transform=ax_u.transAxes, fontsize=S.FONT_SIZE - 2, color=S.MUTED)
+        ax_u.text(0.0, 1.02, f"updated {format_time(step.compute_delay_s)} after each sample (computation delay)",
+                  transform=ax_u.transAxes, fontsize=S.FONT_SIZE - 2, color=S.MUTED, va="bottom")
 
 
 def _clip_growth(ax: Axes, series: list[np.ndarray]) -> None:
