@@ -24,6 +24,7 @@ section 2.7 (choice of sampling interval) and section 3.2 (stability of sampled 
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -44,7 +45,10 @@ from sampled.loop import (
     judge_digital,
 )
 from sampled.margins import Margins, loop_margins
-from sampled.sweep_batch import closed_loop_eigen, loop_groups
+from sampled import poly as P
+from sampled.charpoly import characteristic_polynomial
+from sampled.criteria.unit_circle import circle_counts
+from sampled.sweep_batch import closed_loop_eigen, loop_groups, prepare_loop
 
 #: Boundaries are located to this relative accuracy in period.
 BOUNDARY_RTOL = 1e-9
@@ -201,20 +205,31 @@ class _Point:
 
     def __init__(self, spec: LoopSpec) -> None:
         self.spec = spec
+        self.prep = prepare_loop(spec)
         self._verdict: dict[float, str] = {}
         self._margins: dict[float, tuple[str, Margins | None, dict[str, tuple[bool, float]]]] = {}
 
     def distance(self, t: float) -> float:
-        groups = loop_groups(self.spec, np.array([t]))
+        groups = loop_groups(self.prep, np.array([t]))
         return float(closed_loop_eigen(groups, 1).distance[0])
 
     def exact_verdict(self, t: float) -> str:
+        """The verdict of the per-period route (``sampled check``): assembled there, counted exactly."""
         if t not in self._verdict:
             self._verdict[t] = judge_digital(digital_loop(self.spec, t), with_margins=False).verdict
         return self._verdict[t]
 
+    def exact_count(self, t: float) -> str:
+        """Exact unit-circle count on the characteristic polynomial of the batched closed-loop matrix."""
+        a_cl = loop_groups(self.prep, np.array([t]))[0].closed_loop()[0]
+        if a_cl.shape[0] == 0:
+            return "stable"
+        lam_poly = characteristic_polynomial(a_cl)
+        z_poly = P.compose_mobius(lam_poly, (Fraction(1), Fraction(-1)), (Fraction(t),))  # lambda = (z - 1)/T
+        return circle_counts(z_poly).verdict
+
     def verdict(self, t: float) -> str:
-        groups = loop_groups(self.spec, np.array([t]))
+        groups = loop_groups(self.prep, np.array([t]))
         ev = closed_loop_eigen(groups, 1)
         if abs(ev.distance[0]) <= ev.tolerance[0]:
             return self.exact_verdict(t)
@@ -225,7 +240,7 @@ class _Point:
         if t in self._margins:
             return self._margins[t]
         v = verdict if verdict is not None else self.verdict(t)
-        groups = loop_groups(self.spec, np.array([t]))
+        groups = loop_groups(self.prep, np.array([t]))
         ol = groups[0].open_loop
         lg = discrete_loop_state_space(ol.a[0], ol.b[0], ol.c[0], np.array([[ol.d[0]]]), t,
                                        delay_samples=ol.delay, form="delta")
@@ -305,7 +320,7 @@ def sweep_periods(
             progress(min(work[0], work[1]), work[1])
 
     point = _Point(spec)
-    groups = loop_groups(spec, periods)
+    groups = loop_groups(point.prep, periods)
     ev = closed_loop_eigen(groups, k)
     verdicts = np.where(ev.distance > 0, "stable", "unstable").astype(object)
     near = np.abs(ev.distance) <= ev.tolerance
@@ -449,7 +464,7 @@ def _stability_boundary(point: _Point, lo: float, hi: float, below: str, above: 
     root = _brent(point.distance, lo, hi)
     step = 0.5 * BOUNDARY_RTOL * root
     left, right = max(lo, root - step), min(hi, root + step)
-    v_left, v_right = point.exact_verdict(left), point.exact_verdict(right)
+    v_left, v_right = point.exact_count(left), point.exact_count(right)
     if v_left == below and v_right == above:
         detail = f"spectral radius crosses 1; exact count {below} at {left:.12g} s and {above} at {right:.12g} s"
     else:
@@ -498,7 +513,7 @@ def stability_chart(spec: LoopSpec, periods_s: np.ndarray, gain_multipliers: np.
     gains = np.asarray(gain_multipliers, dtype=float).reshape(-1)
     if gains.size == 0 or not (np.all(np.isfinite(gains)) and np.all(gains > 0)):
         raise InputError("gain multipliers must be finite and positive", "gains")
-    groups = loop_groups(spec, periods)
+    groups = loop_groups(prepare_loop(spec), periods)
     radius = np.zeros((gains.size, periods.size))
     stable = np.zeros((gains.size, periods.size), dtype=bool)
     near = np.zeros((gains.size, periods.size), dtype=bool)

@@ -38,9 +38,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from sampled.casefile import LoopSpec
-from sampled.discretize import split_delay
+from sampled.discrete import DiscreteSystem
+from sampled.discretize import WHOLE_PERIOD_TOLERANCE
 from sampled.errors import InputError
-from sampled.loop import compute_delay_s, digital_controller, path_system
+from sampled.loop import digital_controller, path_system
+from sampled.systems import ContinuousSystem
 
 #: Taylor degree of phi_1 on a matrix scaled to 1-norm <= TAYLOR_RADIUS; the remainder is below
 #: TAYLOR_RADIUS^14 / 15! ~ 5e-17, under the unit roundoff.
@@ -146,23 +148,85 @@ class LoopGroup:
         return self.loop_a - (gain / denom)[:, None, None] * (self.loop_b @ self.loop_c)
 
 
+# ---- preparation (once per case) -----------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class PreparedLoop:
+    """What does not depend on the period, computed once: realisations of the path and controller.
+
+    Attributes
+    ----------
+    spec : LoopSpec
+    path : tuple (A, B, C, D) of ``F(s) P(s)`` (D as a float), delay excluded
+    path_delay_s : float [s]
+        Transport delay of the path.
+    controller : tuple (A, B, C, D) of the continuous controller, or None
+        Set when the controller is batched by its mapping (Tustin, Euler, zero-order hold).
+    firmware : DiscreteSystem or None
+        The firmware controller (period-independent shift form).
+    """
+
+    spec: LoopSpec
+    path: tuple[np.ndarray, np.ndarray, np.ndarray, float]
+    path_delay_s: float
+    controller: tuple[np.ndarray, np.ndarray, np.ndarray, float] | None
+    firmware: DiscreteSystem | None
+
+
+def _realise(system: ContinuousSystem) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
+    a, b, c, d = system.state_space()
+    n = a.shape[0]
+    return (np.asarray(a, dtype=float).reshape(n, n), np.asarray(b, dtype=float).reshape(n, 1),
+            np.asarray(c, dtype=float).reshape(1, n), float(np.asarray(d).reshape(-1)[0]) if np.size(d) else 0.0)
+
+
+def prepare_loop(spec: LoopSpec) -> PreparedLoop:
+    """Realise the path and (when batched) the controller of ``spec`` once."""
+    path = path_system(spec)
+    ctrl = spec.controller
+    mapped = None
+    firmware = None
+    if ctrl.kind == "digital":
+        firmware = digital_controller(spec, spec.period_s)
+    elif ctrl.kind == "transfer" and ctrl.transfer is not None and ctrl.transfer.delay_s == 0 and ctrl.method in BATCHED_METHODS:
+        mapped = _realise(ctrl.transfer)
+    return PreparedLoop(spec, _realise(path), path.delay_s, mapped, firmware)
+
+
+#: Controller mappings assembled for the whole stack at once.
+BATCHED_METHODS = ("tustin", "forward-euler", "backward-euler", "zoh")
+
+
 # ---- plant ---------------------------------------------------------------------------------------
 
-def plant_stacks(spec: LoopSpec, periods_s: np.ndarray) -> list[tuple[np.ndarray, DeltaStack]]:
+def split_delays(prep: PreparedLoop, periods_s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Whole periods and fraction [s] of the total delay at every period.
+
+    The same rule as :func:`sampled.discretize.split_delay` (ratios within
+    ``WHOLE_PERIOD_TOLERANCE`` of an integer snap to it), vectorised.
+    """
+    t = np.asarray(periods_s, dtype=float)
+    cd = prep.spec.compute_delay
+    compute = cd.samples * t if cd.samples is not None else np.full(t.size, float(cd.seconds or 0.0))
+    total = prep.path_delay_s + compute
+    ratio = total / t
+    nearest = np.round(ratio)
+    snap = np.abs(ratio - nearest) <= WHOLE_PERIOD_TOLERANCE * np.maximum(1.0, ratio)
+    floor = np.floor(ratio)
+    whole = np.where(snap, nearest, floor).astype(int)
+    frac = np.where(snap, 0.0, np.clip(total - floor * t, 0.0, t))
+    return whole, frac
+
+
+def plant_stacks(prep: PreparedLoop, periods_s: np.ndarray) -> list[tuple[np.ndarray, DeltaStack]]:
     """Zero-order-hold pulse transfers of ``F(s) P(s)`` with delays, grouped by shape.
 
     Returns ``[(index, stack), ...]``; see :func:`sampled.discretize.zoh_with_delay` for the
     equations (the same construction, batched).
     """
-    path = path_system(spec)
-    a, b, c, d = path.state_space()
+    a, b, c, d0 = prep.path
     n = a.shape[0]
-    b = b.reshape(n, 1)
-    c = c.reshape(1, n)
-    d0 = float(np.asarray(d).reshape(-1)[0]) if np.size(d) else 0.0
-    splits = [split_delay(path.delay_s + compute_delay_s(spec, float(t)), float(t)) for t in periods_s]
-    whole = np.array([sp.whole_periods for sp in splits], dtype=int)
-    frac = np.array([sp.fraction_s for sp in splits], dtype=float)
+    whole, frac = split_delays(prep, periods_s)
     out: list[tuple[np.ndarray, DeltaStack]] = []
     keys = sorted({(int(w), bool(f > 0)) for w, f in zip(whole, frac)})
     for w, has_frac in keys:
@@ -199,23 +263,22 @@ def plant_stacks(spec: LoopSpec, periods_s: np.ndarray) -> list[tuple[np.ndarray
 
 # ---- controller ----------------------------------------------------------------------------------
 
-def controller_stacks(spec: LoopSpec, periods_s: np.ndarray) -> list[tuple[np.ndarray, DeltaStack]]:
+def controller_stacks(prep: PreparedLoop, periods_s: np.ndarray) -> list[tuple[np.ndarray, DeltaStack]]:
     """The controller at every period in delta form, grouped by shape."""
-    ctrl = spec.controller
+    spec = prep.spec
     k = periods_s.size
     everything = np.arange(k)
-    if ctrl.kind == "digital":
+    if prep.firmware is not None:
         # Firmware coefficients do not depend on the period; only the delta scaling does.
-        base = digital_controller(spec, spec.period_s)
+        base = prep.firmware
         n = base.order
         t = periods_s[:, None, None]
         a = (base.phi - np.eye(n))[None, :, :] / t
         b = base.gamma[None, :, :] / t
         return [(everything, DeltaStack(a, b, np.broadcast_to(base.c, (k, 1, n)).copy(),
                                         np.full(k, float(base.d[0, 0])), base.delay_samples))]
-    if ctrl.kind == "transfer" and ctrl.transfer is not None and ctrl.transfer.delay_s == 0 and ctrl.method in (
-            "tustin", "forward-euler", "backward-euler", "zoh"):
-        return [(everything, _mapped_controller(spec, periods_s))]
+    if prep.controller is not None:
+        return [(everything, _mapped_controller(prep, periods_s))]
     # Matched pole-zero, triangle hold, PID, controllers with a delay: the per-period constructor.
     built = [digital_controller(spec, float(t)) for t in periods_s]
     keys = sorted({(s.order, s.delay_samples) for s in built})
@@ -230,20 +293,17 @@ def controller_stacks(spec: LoopSpec, periods_s: np.ndarray) -> list[tuple[np.nd
     return out
 
 
-def _mapped_controller(spec: LoopSpec, periods_s: np.ndarray) -> DeltaStack:
+def _mapped_controller(prep: PreparedLoop, periods_s: np.ndarray) -> DeltaStack:
     """Tustin (with prewarp), forward and backward Euler, or zero-order hold, batched.
 
     The rational mappings follow :func:`sampled.discretize._rational_mapping`: with
     ``M = I - w h A``, ``A_delta = (h/T) M^-1 A``, ``B_delta = (h/T) M^-1 B``, ``C_d = C M^-1``,
     ``D_d = D + w h C M^-1 B``.
     """
-    ctrl = spec.controller
-    assert ctrl.transfer is not None
-    a, b, c, d = ctrl.transfer.state_space()
+    ctrl = prep.spec.controller
+    assert prep.controller is not None
+    a, b, c, d0 = prep.controller
     n = a.shape[0]
-    b = b.reshape(n, 1)
-    c = c.reshape(1, n)
-    d0 = float(np.asarray(d).reshape(-1)[0])
     t = np.asarray(periods_s, dtype=float)
     k = t.size
     if ctrl.method == "zoh":
@@ -319,15 +379,19 @@ def _with_delay_states(sys: DeltaStack, periods_s: np.ndarray) -> tuple[np.ndarr
     return a, b, c, np.zeros(k)
 
 
-def loop_groups(spec: LoopSpec, periods_s: np.ndarray) -> list[LoopGroup]:
-    """The sampled loop at every period, grouped by shape (see the module docstring)."""
+def loop_groups(spec: LoopSpec | PreparedLoop, periods_s: np.ndarray) -> list[LoopGroup]:
+    """The sampled loop at every period, grouped by shape (see the module docstring).
+
+    Pass a :class:`PreparedLoop` (from :func:`prepare_loop`) when calling repeatedly for one case.
+    """
+    prep = spec if isinstance(spec, PreparedLoop) else prepare_loop(spec)
     periods_s = np.asarray(periods_s, dtype=float).reshape(-1)
     if periods_s.size == 0:
         return []
     if not (np.all(np.isfinite(periods_s)) and np.all(periods_s > 0)):
         raise InputError("every period must be finite and positive", "period")
-    plants = plant_stacks(spec, periods_s)
-    ctrls = controller_stacks(spec, periods_s)
+    plants = plant_stacks(prep, periods_s)
+    ctrls = controller_stacks(prep, periods_s)
     out: list[LoopGroup] = []
     for p_idx, p_stack in plants:
         for c_idx, c_stack in ctrls:
