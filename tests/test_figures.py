@@ -335,3 +335,14 @@ def test_drawing_leaves_matplotlib_settings_alone():
     F.z_plane_figure(assess(_lag_spec(0.1)))
     after = dict(matplotlib.rcParams)
     assert before == after
+
+
+def test_pole_paths_agree_with_the_per_period_assembly():
+    """The batched route of the pole-path figure and sampled.loop's per-period route give the same
+    closed-loop poles, with a fractional computation delay (delay states included)."""
+    spec = _case(PLANT_TEXT, CTRL_TEXT, f"{T} s", "0.4 sample")
+    periods = [0.03, 0.1, 0.3]
+    paths = F.pole_paths(spec, periods)
+    for p in periods:
+        batched = paths.poles_z[paths.period_of_pole_s == p]
+        _same_points(batched, assess(spec, p).digital.poles, 1e-9)
