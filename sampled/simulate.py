@@ -172,11 +172,12 @@ def _ss(system: Any) -> StateSpace:
             np.asarray(c, float).reshape(1, n), np.asarray(d, float).reshape(1, 1))
 
 
-def path_state_space(spec: LoopSpec) -> tuple[StateSpace, np.ndarray, float]:
+def path_state_space(spec: LoopSpec) -> tuple[StateSpace, np.ndarray, int]:
     """Plant then sensor in series, every mode kept.
 
-    Returns ``((A, B, C, D), plant_rows, plant_block_states)`` where ``plant_rows = [C_p, 0 | D_p]``
-    reads the plant output (before the sensor) from the series state and the input.
+    Returns ``((A, B, C, D), plant_rows, plant_states)`` where ``plant_rows = [C_p, 0 | D_p]``
+    reads the plant output (before the sensor) from the series state and the input, and the first
+    ``plant_states`` states are the plant's.
     """
     plant = _ss(spec.plant)
     n_p = plant[0].shape[0]
@@ -188,7 +189,7 @@ def path_state_space(spec: LoopSpec) -> tuple[StateSpace, np.ndarray, float]:
     rows = np.zeros(n + 1)
     rows[:n_p] = plant[2][0]
     rows[n] = plant[3][0, 0]
-    return path, rows, float(n_p)
+    return path, rows, n_p
 
 
 @dataclass(frozen=True)

@@ -22,6 +22,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from sampled.errors import NumericalError
 from sampled.findings import Finding
 from sampled.hazards import aliasing, intersample, pathological, rules
 
@@ -56,6 +57,11 @@ def _fmt_hz(w_rad_s: float) -> str:
         if abs(f) >= scale:
             return f"{f / scale:.4g} {unit}"
     return f"{f:.3g} Hz"
+
+
+def _fmt_rel(x: float) -> str:
+    """A relative distance: percent, or scientific notation when tiny."""
+    return f"{x:.2%}" if x >= 1e-4 else f"{x:.1e} (relative)"
 
 
 def _fmt_mode(p: complex) -> str:
@@ -106,12 +112,12 @@ def pathological_findings(a: Assessment) -> list[Finding]:
               f"{_fmt_s(tk * (1 + 2 * pathological.WARN_RELATIVE_DISTANCE))}); below "
               f"{_fmt_s(pair.period_s(1))} no period of this pair is pathological. Damping the mode also helps.")
     if rank.lost:
-        msg = (f"pathological sampling: the period {_fmt_s(t)} is {rel:.2%} from {_fmt_s(tk)} = {check.multiple} x 2 pi / "
+        msg = (f"pathological sampling: the period {_fmt_s(t)} is {_fmt_rel(rel)} from {_fmt_s(tk)} = {check.multiple} x 2 pi / "
                f"{pair.spacing_rad_s:.6g} rad/s, where the modes {modes} land on the same z-plane point; the sampled "
                f"plant has lost controllability or observability of that mode, confirmed: {pbh}.")
         return [Finding("pathological-sampling", msg, advice, "warning", numbers)]
     if rel <= pathological.WARN_RELATIVE_DISTANCE:
-        msg = (f"the period {_fmt_s(t)} is within {rel:.2%} of the pathological period {_fmt_s(tk)} of the modes {modes}: "
+        msg = (f"the period {_fmt_s(t)} is within {_fmt_rel(rel)} of the pathological period {_fmt_s(tk)} of the modes {modes}: "
                f"the sampled plant nearly loses that mode ({pbh}).")
         return [Finding("pathological-sampling", msg, advice, "warning", numbers)]
     side = "below" if t < tk else "above"
@@ -375,8 +381,12 @@ def sampling_findings(assessment: Assessment) -> list[Finding]:
     response = None
     if a.digital.verdict != "unstable":
         k = min(default_samples(a.loop.closed_loop), RIPPLE_MAX_SAMPLES)
-        response = step_response(a.spec, a.period_s, samples=k, points_per_period=RIPPLE_POINTS_PER_PERIOD,
-                                 controller=a.loop.controller, with_continuous=False)
+        try:
+            response = step_response(a.spec, a.period_s, samples=k, points_per_period=RIPPLE_POINTS_PER_PERIOD,
+                                     controller=a.loop.controller, with_continuous=False)
+        except NumericalError as exc:
+            out.append(Finding("intersample-ripple", f"the output between samples was not checked: {exc}",
+                               "", "info", {"samples": k}))
     out.extend(ripple_findings(a, response) if response is not None else [])
     out.extend(rule_of_thumb_findings(a, response))
     out.extend(ringing_findings(a))
