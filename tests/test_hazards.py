@@ -132,11 +132,11 @@ def test_two_resonances_collide_at_the_difference_frequency():
 # ---- 3. intersample ripple -------------------------------------------------------------------------
 
 def test_hidden_ripple_found_and_checked_against_ode():
-    """Plant w^2/((s^2 + 2 zeta w s + w^2)(s + 1)), zeta = 0.0005, sampled at T = 2 pi / w_d: each
+    """Plant w^2/((s^2 + 2 zeta w s + w^2)(s + 1)), zeta = 0.005, sampled at T = 2 pi / w_d: each
     held value drives the resonance through whole periods of its damped oscillation, so the samples
     settle while the output between them keeps ringing. The finding's steady swing is checked
     against scipy.integrate.solve_ivp of the plant under the held commands."""
-    w, zeta = 2 * math.pi, 0.0005
+    w, zeta = 2 * math.pi, 0.005
     wd = w * math.sqrt(1 - zeta**2)
     t = 2 * math.pi / wd
     spec = parse_case(_oscillator_case(w, zeta, t, gain=0.3))
@@ -196,6 +196,30 @@ def test_tustin_fast_pole_rings():
     assert ring[0].numbers["samples_to_tenth"] == pytest.approx(math.log(0.1) / math.log(4 / 6), rel=1e-9)
     matched = assess(parse_case(_lead_case("matched")))
     assert not _kinds(matched.warnings, "ringing-controller")
+    assert not [f for f in _kinds(matched.warnings, "intersample-ripple") if "alternates" in f.message]
+
+
+def test_half_rate_actuator_oscillation_against_dlsim():
+    """The Tustin lead's pole at z = -2/3 makes the command alternate. Reference command, built
+    without sampled: G(z) = ZOH of 20/(s(0.1 s + 1)) and C(z) = bilinear map of the lead, both by
+    scipy.signal.cont2discrete; u/r = nc dg / (dc dg + nc ng), simulated by scipy.signal.dlsim. The
+    finding's peak alternation |u[k+1] - 2 u[k] + u[k-1]|/4 (where u changes direction) matches."""
+    t = 0.01
+    a = assess(parse_case(_lead_case("tustin")))
+    alt = [f for f in _kinds(a.warnings, "intersample-ripple") if "alternates" in f.message]
+    assert len(alt) == 1
+    nums = alt[0].numbers
+    ng, dg, _ = scipy.signal.cont2discrete(([20.0], [0.1, 1.0, 0.0]), t, method="zoh")
+    nc, dc, _ = scipy.signal.cont2discrete(([0.1, 1.0], [0.001, 1.0]), t, method="bilinear")
+    ng, nc = np.trim_zeros(np.ravel(ng), "f"), np.ravel(nc)
+    den = np.polyadd(np.polymul(dc, dg), np.polymul(nc, ng))
+    num = np.polymul(nc, dg)
+    k = nums["samples"]
+    u = scipy.signal.dlsim((num, den, t), np.ones(k))[1][:, 0]
+    d1 = np.diff(u)
+    second = np.where(d1[1:] * d1[:-1] < 0, np.abs(u[2:] - 2 * u[1:-1] + u[:-2]) / 4, 0.0)
+    assert nums["alternation_peak"] == pytest.approx(float(np.max(second)), rel=1e-9)
+    assert nums["actuator_scale"] == pytest.approx(float(np.max(np.abs(u))), rel=1e-9)
 
 
 # ---- 2. aliasing -------------------------------------------------------------------------------------

@@ -267,15 +267,18 @@ def ripple_findings(a: Assessment, response: Any | None = None) -> list[Finding]
             "info",
             numbers,
         ))
-    if ringing and rp.actuator_scale > 0 and rp.actuator_alternation > 0.01 * rp.actuator_scale:
+    if ringing and rp.actuator_scale > 0 and rp.alternation_peak > intersample.ALTERNATION_REPORT * rp.actuator_scale:
+        worst = max(ringing, key=lambda p: p.radius)
         out.append(Finding(
             "intersample-ripple",
-            f"the actuator command still alternates by {rp.actuator_alternation:.3g} each sample after "
-            f"{_fmt_s(rp.window_start_s)} (largest command {rp.actuator_scale:.3g}): an oscillation at half the "
-            f"sample rate from controller poles near z = -1.",
-            "See the ringing-controller finding.",
+            f"the actuator command alternates each sample by up to {rp.alternation_peak:.3g} "
+            f"({rp.alternation_peak / rp.actuator_scale:.1%} of its largest value, near t = {_fmt_s(rp.alternation_time_s)}): "
+            f"a hidden oscillation at half the sample rate ({_fmt_hz(math.pi / a.period_s)}) from the controller pole "
+            f"at z = {_fmt_mode(worst.z)}; the plant filters it, so the samples show little of it.",
+            "See the ringing-controller finding: move that controller pole away from z = -1.",
             "warning",
-            numbers,
+            {**numbers, "alternation_peak": rp.alternation_peak, "alternation_time_s": rp.alternation_time_s,
+             "controller_pole": _c(worst.z), "report_threshold": intersample.ALTERNATION_REPORT},
         ))
     return out
 

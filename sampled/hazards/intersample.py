@@ -40,6 +40,8 @@ HIDDEN_RIPPLE = 0.01
 SETTLE_BAND = 0.02
 #: Transient departure from the chord (fraction of the unit step) above which ripple is reported.
 TRANSIENT_RIPPLE = 0.1
+#: Alternation of the command (fraction of its largest value) reported with ringing controller poles.
+ALTERNATION_REPORT = 0.05
 #: Controller poles with |z| below this are ignored (they die out within two samples).
 RINGING_MIN_RADIUS = 0.1
 #: Poles whose angle is within this of pi count as on/near the negative real axis [rad].
@@ -60,6 +62,8 @@ class Ripple:
     ripple_frequency_rad_s: float | None  # dominant frequency of y - chord in the window
     actuator_alternation: float  # max |u[k+1] - 2 u[k] + u[k-1]| / 4 in the window
     actuator_scale: float  # max |u| over the response
+    alternation_peak: float  # max |u[k+1] - 2 u[k] + u[k-1]| / 4 where u changes direction each sample
+    alternation_time_s: float  # where that peak is
     window_start_s: float
 
 
@@ -100,9 +104,17 @@ def measure_ripple(r: StepResponse) -> Ripple:
     u = r.u_samples
     u_tail = u[start:]
     alt = float(np.max(np.abs(u_tail[2:] - 2 * u_tail[1:-1] + u_tail[:-2])) / 4.0) if u_tail.size >= 3 else 0.0
+    peak, peak_t = 0.0, 0.0
+    if u.size >= 3:
+        d1 = np.diff(u)
+        flips = d1[1:] * d1[:-1] < 0  # the command changes direction at k (alternation)
+        second = np.abs(u[2:] - 2 * u[1:-1] + u[:-2]) / 4.0
+        second = np.where(flips, second, 0.0)
+        q = int(np.argmax(second))
+        peak, peak_t = float(second[q]), float(r.t_samples[q + 1])
     return Ripple(float(per_period[i]), float(t_grid[i, j]), steady, float(np.ptp(samp_tail)),
                   float(np.ptp(cont_tail)), freq, alt, float(np.max(np.abs(u))) if u.size else 0.0,
-                  float(r.t_samples[start]))
+                  peak, peak_t, float(r.t_samples[start]))
 
 
 @dataclass(frozen=True)
