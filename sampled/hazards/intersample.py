@@ -18,10 +18,11 @@ derivative filters shorter than the period.
 References
 ----------
 K. J. Astrom and B. Wittenmark, "Computer-Controlled Systems", 3rd ed., Prentice Hall, 1997,
-section 5.? on deadbeat control and its intersample ripple, and section 8.2 on Tustin's
+the chapters on deadbeat control and its intersample ripple, and section 8.2 on Tustin's
 approximation (from memory; section numbers not verified).
 G. F. Franklin, J. D. Powell and M. L. Workman, "Digital Control of Dynamic Systems", 3rd ed.,
-Addison-Wesley, 1998, section 8.? (ripple of deadbeat designs; from memory).
+Addison-Wesley, 1998, the discussion of ripple in deadbeat designs (from memory; section not
+verified).
 """
 
 from __future__ import annotations

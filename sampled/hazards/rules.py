@@ -20,7 +20,7 @@ Each rule gives a number of the loop and the range a textbook recommends, never 
 References
 ----------
 K. J. Astrom and B. Wittenmark, "Computer-Controlled Systems", 3rd ed., Prentice Hall, 1997,
-rules for the choice of sampling period (sections 2.9 and 8.? ; from memory, section numbers not
+rules for the choice of sampling period (chapters 2 and 8; from memory, section numbers not
 verified).
 G. F. Franklin, J. D. Powell and M. L. Workman, "Digital Control of Dynamic Systems", 3rd ed.,
 Addison-Wesley, 1998, chapter 11 (sample-rate selection) and section 6.3.1 (Tustin with
