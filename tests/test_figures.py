@@ -15,6 +15,7 @@ are found by their ``gid``.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import matplotlib
 import numpy as np
@@ -346,3 +347,17 @@ def test_pole_paths_agree_with_the_per_period_assembly():
     for p in periods:
         batched = paths.poles_z[paths.period_of_pole_s == p]
         _same_points(batched, assess(spec, p).digital.poles, 1e-9)
+
+
+CASES = sorted((Path(__file__).resolve().parent.parent / "cases").glob("*.toml"))
+
+
+@pytest.mark.parametrize("path", CASES, ids=[p.stem for p in CASES])
+def test_z_plane_of_every_demo_case_draws(path):
+    """Every demo loop's z-plane figure draws, with one cross per closed-loop pole."""
+    from sampled.casefile import load_case
+
+    a = assess(load_case(path))
+    fig = F.z_plane_figure(a)
+    fig.canvas.draw()
+    assert _offsets(_artist(fig, "closed-loop-poles")).size == a.digital.poles.size
