@@ -31,6 +31,8 @@ COMMANDS: tuple[str, ...] = (
     "discretize",
     "schema",
     "report",
+    "quantize",
+    "export",
 )
 
 EXIT_BAD_INPUT = 2

@@ -721,14 +721,21 @@ def _shift_from_z_minus_one(p: Sequence[Fraction]) -> tuple[Fraction, ...]:
     return (Fraction(0),) * (len(p) - len(out)) + tuple(out)
 
 
+#: Poles closer than this to ``z = 1`` count as integrators when choosing the delta step.
+INTEGRATOR_DISTANCE = 1e-12
+
+
 def delta_step_for(a: Sequence[Fraction]) -> Fraction:
     """``Delta = 2**-m``: the power of two nearest the geometric mean of ``|p - 1|`` over the poles.
 
-    Poles exactly at ``z = 1`` are left out of the mean; ``m`` is kept within 0..40 so that
-    coefficients stay O(1) without asking for more guard bits than any word can give.
+    Poles at ``z = 1`` are left out of the mean, and so are poles within
+    :data:`INTEGRATOR_DISTANCE` of it: an integrator whose coefficients were rounded to doubles
+    (a discretised design) sits 1e-16 away, and counting it would ask for ``Delta = 2**-27`` and
+    coefficients of 1e14. ``m`` is kept within 0..40 so that coefficients stay O(1) without
+    asking for more guard bits than any word can give.
     """
     dist = [abs(complex(p) - 1.0) for p in roots(a)]
-    dist = [d for d in dist if d > 0]
+    dist = [d for d in dist if d > INTEGRATOR_DISTANCE]
     if not dist:
         return Fraction(1)
     mean_log2 = sum(math.log2(d) for d in dist) / len(dist)
