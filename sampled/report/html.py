@@ -23,7 +23,7 @@ import shlex
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -31,8 +31,13 @@ from sampled import __version__
 from sampled.casefile import LoopSpec
 from sampled.commands.common import SAFETY_CAUTION
 from sampled.commands.render import REQUIREMENT_LABELS, fmt_db, fmt_deg, fmt_num, fmt_s, margin_cells
+from sampled.errors import InputError
 from sampled.loop import Assessment, assess, compute_delay_s
 from sampled.units import format_frequency, format_time
+
+if TYPE_CHECKING:  # imported lazily at run time
+    from sampled.simulate import StepResponse
+    from sampled.sweep import StabilityChart, SweepResult
 
 #: Section ids of the report, in order, with their headings.
 SECTIONS: tuple[tuple[str, str], ...] = (
@@ -66,9 +71,9 @@ class ReportParts:
 
     spec: LoopSpec
     assessment: Assessment
-    step: Any  # sampled.simulate.StepResponse
-    sweep: Any  # sampled.sweep.SweepResult
-    chart: Any  # sampled.sweep.StabilityChart
+    step: "StepResponse"
+    sweep: "SweepResult"
+    chart: "StabilityChart"
     path_periods_s: np.ndarray
     period_given: bool
 
@@ -105,11 +110,13 @@ def collect(
     given = period_s is not None
     if given:
         spec = spec.with_period(float(period_s))  # type: ignore[arg-type]
+    periods = np.asarray(default_periods(spec) if periods_s is None else periods_s, dtype=float).reshape(-1)
+    if periods.size == 0 or not (np.all(np.isfinite(periods)) and np.all(periods > 0)):
+        raise InputError("the sweep periods must be finite, positive and at least one", "periods")
     say(f"judging the loop at {format_time(spec.period_s)}")
     assessment = assess(spec)
     say("simulating the step response")
     step = step_response(spec)
-    periods = np.asarray(default_periods(spec) if periods_s is None else periods_s, dtype=float)
     say(f"sweeping {periods.size} periods from {format_time(float(np.min(periods)))} to {format_time(float(np.max(periods)))}")
     kwargs: dict[str, Any] = {} if margin_points is None else {"margin_points": margin_points}
     if progress is not None:
