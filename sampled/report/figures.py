@@ -516,12 +516,17 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
                 ax.axvline(b.period_s, color=color, lw=S.THIN, ls="-." if b.kind != "stability" else "-")
             ax.axvline(sweep.case_period_s, color=S.INK, lw=S.THIN * 1.2, ls=(0, (1, 1)))
         top_ax = axes[0]
-        for b in sweep.boundaries:
+        # Boundaries are numbered on the top panel and listed in the legend below, so that close
+        # boundaries stay readable; the numbers step down in three heights.
+        boundary_handles = []
+        for i, b in enumerate(sorted(sweep.boundaries, key=lambda b: b.period_s)):
             color = S.UNSTABLE if b.kind == "stability" else S.MUTED
-            what = b.becomes if b.kind == "stability" else f"{SHORT_NAMES.get(b.kind, b.kind)} {b.becomes}"
-            top_ax.annotate(f"{format_time(b.period_s)} {what}", (b.period_s, 1.0), xycoords=("data", "axes fraction"),
-                            xytext=(3, -3), textcoords="offset points", rotation=90, va="top", ha="left",
-                            fontsize=S.FONT_SIZE - 3, color=color)
+            what = f"becomes {b.becomes}" if b.kind == "stability" else f"{SHORT_NAMES.get(b.kind, b.kind)} {b.becomes}"
+            top_ax.annotate(str(i + 1), (b.period_s, 1.0 - 0.14 * (i % 3)), xycoords=("data", "axes fraction"),
+                            xytext=(3, -3), textcoords="offset points", va="top", ha="left",
+                            fontsize=S.FONT_SIZE - 2, color=color, fontweight="bold")
+            boundary_handles.append(Line2D([], [], color=color, lw=S.THIN, ls="-" if b.kind == "stability" else "-.",
+                                           label=f"{i + 1}: {format_time(b.period_s)} {what}"))
         top_ax.annotate("case period", (sweep.case_period_s, 0.0), xycoords=("data", "axes fraction"),
                         xytext=(-3, 3), textcoords="offset points", rotation=90, va="bottom", ha="right",
                         fontsize=S.FONT_SIZE - 3, color=S.INK)
@@ -539,8 +544,9 @@ def margins_vs_period_figure(sweep: Any) -> Figure:
         fig.legend(handles=[Line2D([], [], color=S.UNSTABLE, lw=6, alpha=0.2, label="not stable"),
                             Line2D([], [], color=S.UNSTABLE, lw=S.THIN, label="stability boundary"),
                             Line2D([], [], color=S.MUTED, lw=S.THIN, ls="-.", label="requirement boundary"),
-                            Line2D([], [], color=S.STABLE, lw=S.LINE_WIDTH, label="largest period meeting requirements")],
-                   loc="outside lower center", ncols=4, fontsize=S.FONT_SIZE - 2.5)
+                            Line2D([], [], color=S.STABLE, lw=S.LINE_WIDTH, label="largest period meeting requirements")]
+                   + boundary_handles,
+                   loc="outside lower center", ncols=4 if not boundary_handles else 2, fontsize=S.FONT_SIZE - 2.5)
     return fig
 
 
