@@ -35,7 +35,7 @@ import numpy as np
 
 from sampled.casefile import LoopSpec
 from sampled.discrete import DiscreteSystem
-from sampled.errors import InputError
+from sampled.errors import InputError, NumericalError
 from sampled.fixedpoint import MAX_WORD_BITS, MIN_WORD_BITS, FixedFormat, ROUNDINGS, Rounding
 from sampled.loop import (
     DigitalLoop,
@@ -151,7 +151,7 @@ class QuantizedRow:
     implementation : ImplementedController or None
         Rounded coefficients, exact implemented transfer, controller poles and zeros.
     note : str
-        Why the row has no implementation.
+        Why the row has no implementation, or why it has no margins.
     """
 
     bits: int
@@ -380,11 +380,18 @@ def judge_implemented(
     else:
         open_loop = ctrl.series(plant)
         loop = DigitalLoop(impl.period_s, ctrl, plant, open_loop, open_loop.feedback())
-    digital = judge_digital(loop, with_margins=with_margins)
+    note = ""
+    try:
+        digital = judge_digital(loop, with_margins=with_margins)
+    except NumericalError as err:
+        # The margin search could not resolve this loop's frequency response; the verdict stands
+        # without margins, and margin requirements count as not met.
+        digital = judge_digital(loop, with_margins=False)
+        note = f"margins not computed: {err}"
     reqs = check_requirements(spec, digital)
     return QuantizedRow(
         impl.word_bits or 0, digital.verdict, digital.spectral_radius, digital.stability_distance,
-        impl.spectral_radius, digital.margins, reqs, impl,
+        impl.spectral_radius, digital.margins, reqs, impl, note,
     )
 
 
