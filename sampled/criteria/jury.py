@@ -57,7 +57,7 @@ class JuryCondition:
     holds: bool
 
     def to_dict(self) -> dict[str, object]:
-        return {"condition": self.name, "left": str(self.left), "right": str(self.right), "holds": self.holds}
+        return {"condition": self.name, "left": _exact_text(self.left), "right": _exact_text(self.right), "holds": self.holds}
 
 
 @dataclass(frozen=True)
@@ -99,14 +99,27 @@ class JuryTable:
 
     def to_dict(self) -> dict[str, object]:
         return {
-            "coefficients": [str(c) for c in self.coefficients],
-            "rows": [[str(x) for x in row] for row in self.rows],
+            "coefficients": [_exact_text(c) for c in self.coefficients],
+            "rows": [[_exact_text(x) for x in row] for row in self.rows],
             "reduced": self.reduced,
             "conditions": [c.to_dict() for c in self.conditions],
             "first_failure": self.first_failure,
             "verdict": self.verdict,
             "notes": list(self.notes),
         }
+
+
+def _exact_text(x: Fraction) -> str:
+    """``str(x)``, or a 17-digit approximation when the exact fraction has more digits than
+    Python converts to text (``sys.get_int_max_str_digits``; entries of deep tables can)."""
+    try:
+        return str(x)
+    except ValueError:
+        import mpmath
+
+        with mpmath.workdps(20):
+            approx = mpmath.nstr(mpmath.mpf(x.numerator) / x.denominator, 17)
+        return f"~{approx} (exact fraction too long to print)"
 
 
 _LETTERS = "abcdefghijklmnopqrstuvwxy"
