@@ -68,7 +68,7 @@ def test_implemented_system_transfer_matches_scipy(realisation: str) -> None:
         np.testing.assert_allclose(got, ss.sosfreqz(sos, worN=w)[1], rtol=1e-9)
 
 
-def _independent_radius(spec_text: str, b: list[float], a: list[float]) -> float:
+def _independent_radius(b: list[float], a: list[float]) -> float:
     """Spectral radius of the loop C(z) z^-1 G(z), G the ZOH equivalent of the plant (scipy).
 
     Characteristic polynomial (in z, after clearing z^-1): a_c(z) d_g(z) z + b_c(z) n_g(z), with
@@ -93,7 +93,7 @@ def test_loop_radius_against_independent_closed_loop() -> None:
         for row in s.rows:
             impl = row.implementation
             assert impl is not None
-            ref = _independent_radius(SMALL_CASE, [float(x) for x in impl.b], [float(x) for x in impl.a])
+            ref = _independent_radius([float(x) for x in impl.b], [float(x) for x in impl.a])
             assert row.spectral_radius == pytest.approx(ref, rel=1e-7), (s.name, row.bits)
             assert row.controller_spectral_radius == pytest.approx(
                 float(np.max(np.abs(np.roots([float(x) for x in impl.a])))), rel=1e-9)
@@ -129,8 +129,9 @@ def test_fragile_notch_direct_form_unstable_sections_stable() -> None:
     notches at 310 Hz and 620 Hz, a roll-off pole) at 20 kHz.
 
     Why: the controller's poles cluster near z = 1 (an integrator and two notch pairs at
-    omega T = 0.1 and 0.2), so the direct-form denominator is close to (1 - z^-1)^5 with
-    coefficients up to ~10; a 16-bit word with one shift leaves an LSB near 2^-11, and pole
+    omega T = 0.1 and 0.2, a roll-off pole at 0.44), so the direct-form denominator has
+    coefficients up to 12.5 (a = 1, -5.18, 11.09, -12.55, 7.89, -2.60, 0.35); a 16-bit word
+    with one shift for the bank leaves an LSB of 2^-11, and pole
     sensitivity to a coefficient grows as 1/prod|p_i - p_j| over the cluster (Oppenheim and
     Schafer 2010, section 6.7, from memory): the poles leave the unit circle. Second-order
     sections hold each pair in its own two coefficients, so the same word moves them by about an
