@@ -134,7 +134,7 @@ class QuantizedRow:
     Attributes
     ----------
     bits : int
-        Word length of coefficients and signals (sign included).
+        Word length of coefficients and signals (sign included); 0 for IEEE double.
     verdict : str
         Loop verdict: "stable", "marginal" or "unstable"; "unrepresentable" when a coefficient
         does not fit the word even with the largest shift (``note`` says which).
