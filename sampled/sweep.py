@@ -36,6 +36,7 @@ from sampled.casefile import LoopSpec
 from sampled.errors import InputError
 from sampled.frequency import discrete_loop_state_space
 from sampled.loop import (
+    EXACT_ORDER_LIMIT,
     ContinuousResult,
     DigitalResult,
     check_requirements,
@@ -464,6 +465,10 @@ def _stability_boundary(point: _Point, lo: float, hi: float, below: str, above: 
     root = _brent(point.distance, lo, hi)
     step = 0.5 * BOUNDARY_RTOL * root
     left, right = max(lo, root - step), min(hi, root + step)
+    order = loop_groups(point.prep, np.array([root]))[0].loop_a.shape[1]
+    if order > EXACT_ORDER_LIMIT:
+        return Boundary(root, "stability", above, f"spectral radius crosses 1 (eigenvalues of the order-{order} "
+                        f"closed loop; exact counts are formed up to order {EXACT_ORDER_LIMIT})")
     v_left, v_right = point.exact_count(left), point.exact_count(right)
     if v_left == below and v_right == above:
         detail = f"spectral radius crosses 1; exact count {below} at {left:.12g} s and {above} at {right:.12g} s"
