@@ -379,9 +379,6 @@ def sweep_periods(
                 st = {name: (False, -1.0) for name in limits}
             status[i] = st
             tick()
-        if computed.sum() < k:
-            notes.append(f"margins computed at {int(computed.sum())} of {k} periods (stable ones of an evenly "
-                         "spread subset); requirement boundaries between them located by Brent's method")
         for name in limits:
             met = np.zeros(k, dtype=bool)
             crossings[name] = {}
@@ -407,6 +404,15 @@ def sweep_periods(
             if len(subset_idx) == 1:
                 met[subset_idx[0]] = status[subset_idx[0]][name][0]
             req_met[name] = met
+        # Margins also at the swept periods on both sides of every boundary (the rows readers look at).
+        for b in boundaries:
+            j = int(np.searchsorted(periods, b.period_s))
+            for i in (j - 1, j):
+                if 0 <= i < k and stable[i] and not computed[i]:
+                    _, m, _ = point.requirements(float(periods[i]), "stable")
+                    assert m is not None
+                    gm[i], pm[i], dm[i], sp[i] = m.gain_margin_db, m.phase_margin_deg, m.delay_margin_s, m.sensitivity_peak
+                    computed[i] = True
         all_met = stable.copy()
         for met in req_met.values():
             all_met &= met
@@ -416,6 +422,10 @@ def sweep_periods(
     else:
         req_met["all"] = stable.copy()
 
+    if with_margins and computed.sum() < k:
+        notes.append(f"margins computed at {int(computed.sum())} of {k} periods (stable ones of an evenly spread "
+                     "subset and those next to each boundary); requirement boundaries between them located by "
+                     "Brent's method")
     boundaries.sort(key=lambda b: (b.period_s, b.kind))
     stable_iv = _intervals(periods, stable, [b for b in boundaries if b.kind == "stability"])
     meeting_iv: tuple[tuple[float, float], ...] = ()
