@@ -13,11 +13,9 @@ from typing import Any
 
 import numpy as np
 
-SAFETY_CAUTION = (
-    "Caution: this verdict holds for the linear model given. Verify on hardware with protective "
-    "limits; safety functions follow the applicable functional-safety standard and licensed "
-    "engineering practice."
-)
+from sampled import SAFETY_CAUTION
+
+__all__ = ["SAFETY_CAUTION", "print_json", "to_jsonable", "write_file_atomically"]
 
 
 def to_jsonable(value: Any) -> Any:
@@ -64,6 +62,10 @@ def write_file_atomically(path: str | os.PathLike[str], data: str | bytes) -> No
     target.parent.mkdir(parents=True, exist_ok=True)
     mode = "wb" if isinstance(data, bytes) else "w"
     fd, tmp = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".tmp")
+    # mkstemp creates the file private (0600); give it the mode an ordinary new file would get.
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)
     try:
         with os.fdopen(fd, mode) as handle:
             handle.write(data)

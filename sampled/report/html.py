@@ -27,9 +27,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from sampled import __version__
+from sampled import SAFETY_CAUTION, __version__
 from sampled.casefile import LoopSpec
-from sampled.commands.common import SAFETY_CAUTION
 from sampled.commands.render import REQUIREMENT_LABELS, fmt_db, fmt_deg, fmt_num, fmt_s, margin_cells
 from sampled.errors import InputError
 from sampled.loop import Assessment, assess, compute_delay_s
