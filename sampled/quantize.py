@@ -55,6 +55,10 @@ from sampled.realisations import (
     smallest_word_bits,
 )
 
+#: Rows of :func:`quantize_loop` are confirmed exactly when a loop pole is this close to the unit
+#: circle (``|1 - |z||``); farther out the delta-matrix eigenvalues decide.
+CONFIRM_WITHIN = 1e-6
+
 #: Called after each judged row with (rows done, rows in all).
 Progress = Callable[[int, int], None]
 
@@ -152,6 +156,9 @@ class QuantizedRow:
         Rounded coefficients, exact implemented transfer, controller poles and zeros.
     note : str
         Why the row has no implementation, or why it has no margins.
+    confirmed : str
+        How the verdict was reached: "exact" (exact count on the closed-loop characteristic
+        polynomial) or "eigenvalues" (delta matrix, far from the circle); "" without a loop.
     """
 
     bits: int
@@ -163,6 +170,7 @@ class QuantizedRow:
     requirements: tuple[RequirementResult, ...]
     implementation: ImplementedController | None
     note: str = ""
+    confirmed: str = ""
 
     @property
     def word_bits(self) -> int:
@@ -184,6 +192,7 @@ class QuantizedRow:
             "bits": self.bits,
             "verdict": self.verdict,
             "note": self.note,
+            "confirmed": self.confirmed,
             "spectral_radius": self.spectral_radius,
             "stability_distance": self.stability_distance,
             "controller_spectral_radius": self.controller_spectral_radius,
@@ -367,12 +376,30 @@ def _check_inputs(word_bits: Iterable[int], realisations: Iterable[str], roundin
 
 
 def judge_implemented(
-    spec: LoopSpec, impl: ImplementedController, *, with_margins: bool = True, plant: DiscreteSystem | None = None
+    spec: LoopSpec,
+    impl: ImplementedController,
+    *,
+    with_margins: bool = True,
+    plant: DiscreteSystem | None = None,
+    confirm_within: float | None = None,
 ) -> QuantizedRow:
     """Judge the case's loop with the controller ``impl`` (its exact rounded coefficients).
 
-    ``plant`` reuses the plant pulse transfer :func:`sampled.loop.plant_pulse` at ``impl.period_s``
-    (it does not depend on the controller).
+    Parameters
+    ----------
+    spec : LoopSpec
+    impl : ImplementedController
+    with_margins : bool
+        Compute margins.
+    plant : DiscreteSystem, optional
+        The plant pulse transfer :func:`sampled.loop.plant_pulse` at ``impl.period_s``, reused
+        (it does not depend on the controller).
+    confirm_within : float, optional
+        None: confirm the verdict exactly as ``sampled check`` does (always for loops of order
+        up to :data:`sampled.loop.EXACT_ORDER_LIMIT`). A number: confirm exactly only when a loop
+        pole lies within that distance of the unit circle (``|1 - |z|| < confirm_within``);
+        farther out the eigenvalues of the closed-loop delta matrix decide, their error being
+        many orders of magnitude smaller.
     """
     ctrl = implemented_system(impl)
     if plant is None:
@@ -381,17 +408,21 @@ def judge_implemented(
         open_loop = ctrl.series(plant)
         loop = DigitalLoop(impl.period_s, ctrl, plant, open_loop, open_loop.feedback())
     note = ""
+    exact: bool | None = None
+    if confirm_within is not None:
+        dist = loop.closed_loop.poles().unit_circle_distance
+        exact = bool(dist.size) and float(np.min(np.abs(dist))) < confirm_within
     try:
-        digital = judge_digital(loop, with_margins=with_margins)
+        digital = judge_digital(loop, with_margins=with_margins, exact=exact)
     except NumericalError as err:
         # The margin search could not resolve this loop's frequency response; the verdict stands
         # without margins, and margin requirements count as not met.
-        digital = judge_digital(loop, with_margins=False)
+        digital = judge_digital(loop, with_margins=False, exact=exact)
         note = f"margins not computed: {err}"
     reqs = check_requirements(spec, digital)
     return QuantizedRow(
         impl.word_bits or 0, digital.verdict, digital.spectral_radius, digital.stability_distance,
-        impl.spectral_radius, digital.margins, reqs, impl, note,
+        impl.spectral_radius, digital.margins, reqs, impl, note, digital.confirmed,
     )
 
 
@@ -406,7 +437,7 @@ def _row(
     key = (name, impl.b, impl.a, impl.delta_step, impl.sections)
     seen = judged.get(key)
     if seen is None:
-        row = judge_implemented(spec, impl, with_margins=with_margins, plant=plant)
+        row = judge_implemented(spec, impl, with_margins=with_margins, plant=plant, confirm_within=CONFIRM_WITHIN)
         judged[key] = row
         return row
     return replace(seen, bits=bits, implementation=impl)

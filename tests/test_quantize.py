@@ -151,8 +151,8 @@ def test_fragile_notch_direct_form_unstable_sections_stable() -> None:
 
 def test_minimum_bits_is_start_of_final_passing_run() -> None:
     """min_bits_* is the first word from which every longer word tried passes (definition)."""
-    spec = load_case("cases/print_bed_heater.toml")
-    result = quantize_loop(spec, [8, 9, 10, 11, 12, 14], ["direct1", "delta"], with_margins=True)
+    spec = load_case("cases/notch_filter_fragile.toml")
+    result = quantize_loop(spec, [16, 20, 21, 22, 24], ["direct1", "delta"])
     for s in result.structures:
         stable = [r.bits for r in s.rows if r.stable]
         expected = None
