@@ -4,7 +4,9 @@ For every realisation (:data:`sampled.realisations.REALISATIONS`) and every word
 the case's controller is rounded by :func:`sampled.realisations.implement` (coefficients
 ``Q(w-1)`` with one shift per coefficient bank, signals ``Q(w-1)``), and the loop is judged with
 the controller that the rounded coefficients implement EXACTLY: the same assembly and verdict
-as ``sampled check`` (closed loop in delta form, exact confirmation), and the case's requirements.
+as ``sampled check`` (closed loop in delta form; the verdict confirmed by an exact count on the
+closed-loop characteristic polynomial when a pole lies within :data:`CONFIRM_WITHIN` of the unit
+circle), and the case's requirements.
 
 The implemented controller enters the loop in the state-space form of its structure, not through
 one polynomial in z: direct forms through their coefficients (each an exact double), the cascade
