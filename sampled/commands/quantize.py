@@ -113,7 +113,8 @@ def _requirements_cell(row: QuantizedRow, has_requirements: bool) -> str:
 
 
 def _row_cells(row: QuantizedRow, has_requirements: bool) -> list[str]:
-    m = row.margins
+    # Margins of a loop that is not stable are not stability margins: not shown (JSON keeps them).
+    m = row.margins if row.stable else None
     verdict = row.verdict if row.implementation is not None else f"unrepresentable: {row.note}"
     return [
         str(row.bits),
