@@ -206,3 +206,33 @@ def test_text_parsers_and_input_errors() -> None:
         quantize_loop(spec, [16], ["ladder"])
     with pytest.raises(InputError, match="rounding"):
         quantize_loop(spec, [16], rounding="up")  # type: ignore[arg-type]
+
+
+def test_shortest_word_is_not_the_first_passing_word() -> None:
+    """Closed form, a Tustin PI (kp = 0.08, Ti = 0.1 s, T = 2 ms): b0 = kp (1 + T/(2 Ti)) = 0.0808,
+    b1 = -kp (1 - T/(2 Ti)) = -0.0792, a = [1, -1].
+
+    6 bits, 8 fraction bits (0.0808 * 2^8 = 20.7 fits 31, 2^9 would not): b = [21, -20]/2^8, the
+    integrator is kept (b0 + b1 != 0): stable. 7 bits, 9 fraction bits: 41.37 -> 41 and
+    -40.55 -> -41, b0 + b1 = 0 cancels the integrator: a loop pole at z = 1, marginal.
+    8 bits: [83, -81]/2^10, stable. So 6 bits passes, 7 fails, and the shortest word from which
+    every longer word passes is 8 (rounding robustness is not monotone in the word length).
+    """
+    text = """
+title = "PI, no requirements"
+[plant]
+transfer = "50/(s*(0.02*s + 1))"
+[controller]
+transfer = "0.08*(0.1*s + 1)/(0.1*s)"
+method = "tustin"
+[timing]
+period = "2 ms"
+"""
+    result = quantize_loop(parse_case(text), [6, 7, 8], ["direct1"])
+    rows = result.structures[0].rows
+    assert [[c.integer for c in r.implementation.coefficients] for r in rows] == [[21, -20, -32], [41, -41, -64], [83, -81, -128]]
+    assert [r.verdict for r in rows] == ["stable", "marginal", "stable"]
+    assert [r.requirements_met for r in rows] == [True, False, True]  # no requirements: stable
+    s = result.structures[0]
+    assert s.min_bits_stable == 8 and s.min_bits_requirements == 8
+    assert rows[1].confirmed == "exact"  # a pole on the circle is always confirmed exactly
