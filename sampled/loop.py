@@ -44,6 +44,8 @@ from sampled.verdict import Verdict, judge_s, judge_z
 NEAR_CIRCLE = 1e-9
 #: Largest closed-loop order whose exact characteristic polynomial is always formed.
 EXACT_ORDER_LIMIT = 16
+#: Largest order for which a near-circle verdict is still confirmed exactly (cost grows as n^4).
+EXACT_ORDER_NEAR_LIMIT = 40
 #: Largest number of whole-sample delays modelled as states (each adds one closed-loop pole).
 MAX_DELAY_SAMPLES = 300
 #: Pade order used to show continuous closed-loop poles of a loop with a transport delay.
@@ -249,7 +251,8 @@ def judge_digital(loop: DigitalLoop, *, with_margins: bool = True, exact: bool |
     float_verdict = _verdict_from_distance(z, dist)
     near = abs(worst) < NEAR_CIRCLE
     order = closed.order
-    want_exact = exact if exact is not None else (order <= EXACT_ORDER_LIMIT or near)
+    want_exact = exact if exact is not None else (
+        order <= EXACT_ORDER_LIMIT or (near and order <= EXACT_ORDER_NEAR_LIMIT))
     exact_v: Verdict | None = None
     lam_poly: P.ExactPoly | None = None
     confirmed = "eigenvalues"
@@ -269,6 +272,10 @@ def judge_digital(loop: DigitalLoop, *, with_margins: bool = True, exact: bool |
         verdict = exact_v.verdict
     elif near:
         confirmed = "not confirmed"
+        notes.append(
+            f"a pole lies within {NEAR_CIRCLE:g} of the unit circle and the loop has order {order}: "
+            "the verdict rests on double-precision eigenvalues only"
+        )
     margins = None
     if with_margins:
         ol = loop.open_loop
