@@ -14,6 +14,8 @@ from fractions import Fraction
 import numpy as np
 import pytest
 import scipy.signal as ss
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from sampled.casefile import load_case, parse_case
 from sampled.errors import InputError
@@ -236,3 +238,28 @@ period = "2 ms"
     s = result.structures[0]
     assert s.min_bits_stable == 8 and s.min_bits_requirements == 8
     assert rows[1].confirmed == "exact"  # a pole on the circle is always confirmed exactly
+
+
+@settings(derandomize=True, max_examples=25, deadline=None)
+@given(
+    poles=st.lists(st.floats(-0.95, 0.999), min_size=1, max_size=4),
+    zeros=st.lists(st.floats(-1.5, 1.5), min_size=0, max_size=3),
+    gain=st.floats(0.01, 20.0),
+    delay=st.integers(0, 1),
+    realisation=st.sampled_from(REALISATIONS),
+    bits=st.sampled_from([12, 16, 24]),
+)
+def test_implemented_system_matches_freqz_property(poles, zeros, gain, delay, realisation, bits) -> None:
+    """For random real poles/zeros, a leading delay and every structure, the system handed to the
+    loop check has the frequency response of the exact implemented b/a (scipy.signal.freqz)."""
+    zeros = zeros[: len(poles) - delay] if len(poles) > delay else []
+    a = np.poly(poles)
+    b = np.concatenate([np.zeros(delay), gain * np.poly(zeros) if zeros else [gain]])
+    n = max(len(a), len(b))
+    a = np.concatenate([a, np.zeros(n - len(a))])
+    b = np.concatenate([b, np.zeros(n - len(b))])
+    impl = implement(b.tolist(), a.tolist(), 1e-3, realisation, FixedFormat(bits, bits - 1))
+    w = np.array([0.05, 0.7, 2.0, 3.0])
+    got = implemented_system(impl).evaluate(np.exp(1j * w))
+    want = _freq(impl.b, impl.a, w)
+    np.testing.assert_allclose(got, want, rtol=1e-7, atol=1e-12 * max(1.0, float(np.max(np.abs(want)))))
