@@ -333,8 +333,6 @@ def judge_continuous(design: ContinuousDesign, *, with_margins: bool = True) -> 
         approx = False
         routh_poly, routh_label, routh_verdict = char, "characteristic polynomial", v.verdict
     else:
-        count = count_right_half_plane(P.to_float(design.num), P.to_float(design.den), design.delay_s)
-        verdict, method = count.verdict, "Nyquist criterion with the exact delay"
         pn, pd = pade(design.delay_s, PADE_ORDER)
         pn_e, pd_e = P.from_float(pn), P.from_float(pd)
         approx_char = P.add(P.mul(design.den, pd_e), P.mul(design.num, pn_e))
@@ -343,6 +341,14 @@ def judge_continuous(design: ContinuousDesign, *, with_margins: bool = True) -> 
         routh_poly = approx_char
         routh_label = f"characteristic polynomial with the delay replaced by a Pade ({PADE_ORDER},{PADE_ORDER}) approximation"
         routh_verdict = routh_array(approx_char).verdict
+        try:
+            count = count_right_half_plane(P.to_float(design.num), P.to_float(design.den), design.delay_s)
+            verdict, method = count.verdict, "Nyquist criterion with the exact delay"
+        except NumericalError as exc:
+            k_inf = abs(design.num[0] / design.den[0]) if len(design.num) == len(design.den) else 0
+            verdict = "unstable" if k_inf > 1 else routh_verdict
+            method = "neutral delay equation" if k_inf > 1 else f"Pade ({PADE_ORDER},{PADE_ORDER}) approximation"
+            notes.append(f"the Nyquist count with the exact delay was not possible: {exc}")
         if routh_verdict != verdict:
             notes.append(
                 f"the Pade-approximated Routh array says {routh_verdict}; the Nyquist count with the exact "

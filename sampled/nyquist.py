@@ -75,20 +75,24 @@ def count_right_half_plane(num: np.ndarray, den: np.ndarray, delay_s: float) -> 
     n = den.size - 1
     if num.size > den.size:
         raise NumericalError("the loop is improper; the Nyquist count needs deg N <= deg D")
-    if num.size == den.size and abs(num[0] / den[0]) >= 0.5 and delay_s > 0:
+    k_inf = abs(num[0] / den[0]) if num.size == den.size else 0.0
+    if k_inf >= 1 and delay_s > 0:
+        # Neutral type: the roots of 1 + k e^(-s tau) = 0 accumulate at Re s = ln|k| / tau >= 0.
         raise NumericalError(
-            "a biproper loop with a delay and high-frequency gain >= 0.5 is not handled by the Nyquist count"
+            f"the loop keeps a high-frequency gain of {k_inf:.3g} >= 1 with a delay (a neutral delay "
+            "equation): infinitely many closed-loop roots approach Re s = ln|k|/delay >= 0"
         )
+    tail_limit = 0.5 if k_inf < 0.25 else 0.5 * (1.0 + k_inf)
     roots = np.concatenate([np.roots(den) if n > 0 else np.zeros(0), np.roots(num) if num.size > 1 else np.zeros(0)])
     scale = max(1.0, float(np.max(np.abs(roots))) if roots.size else 1.0)
     if delay_s > 0:
         scale = max(scale, 1.0 / delay_s)
-    # Find Omega beyond which |N/D| < 1/2 for good (checked over a decade above it).
+    # Find Omega beyond which |N/D| < tail_limit < 1 for good (checked over a decade above it).
     omega = 100.0 * scale
     for _ in range(60):
         test = omega * np.logspace(0, 1, 50)
         ratio = np.abs(np.polyval(num, 1j * test)) / np.abs(np.polyval(den, 1j * test))
-        if np.all(ratio < 0.5):
+        if np.all(ratio < tail_limit):
             break
         omega *= 10.0
     else:  # pragma: no cover - only for pathological coefficient sets
@@ -115,7 +119,8 @@ def count_right_half_plane(num: np.ndarray, den: np.ndarray, delay_s: float) -> 
     k = int(np.argmin(rel))
     on_axis = bool(rel[k] < AXIS_TOLERANCE)
     delta = float(np.sum(np.angle(q[1:] / q[:-1])))
-    # Beyond Omega: Q = D (1 + L) with |L| < 1/2; arg D turns by sum over roots of (pi/2 - arg(j Omega - r)).
+    # Beyond Omega: Q = D (1 + L) with |L| < 1, so 1 + L does not wind; arg D turns by the sum over
+    # its roots of (pi/2 - arg(j Omega - r)).
     tail = 0.0
     for r in (np.roots(den) if n > 0 else []):
         tail += math.pi / 2 - float(np.angle(1j * omega - r))
