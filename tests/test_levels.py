@@ -209,3 +209,51 @@ def test_case_file_levels() -> None:
     assert all(math.isfinite(r.bounded_input_gain) for r in lv.registers)
     d = lv.to_dict()
     assert {"risk", "headroom_bits", "registers", "reference_amplitude"} <= set(d)
+
+
+def _cli(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
+    from sampled.cli import main
+
+    try:
+        code = main(list(argv))
+    except SystemExit as exc:
+        code = int(exc.code or 0)
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_quantize_shows_levels_of_best_structure(capsys: pytest.CaptureFixture[str]) -> None:
+    """`sampled quantize --json` carries the closed-loop levels on the best structure, equal to the
+    library's for the same implementation; the text report shows the table."""
+    import json
+
+    code, out, err = _cli(capsys, "quantize", "cases/print_bed_heater.toml", "--bits", "16", "--structure", "sections", "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    best = next(s for s in data["structures"] if s["name"] == data["best_structure"])
+    spec = load_case("cases/print_bed_heater.toml")
+    b, a = case_controller(spec)
+    lv = closed_loop_levels(spec, implement(b, a, spec.period_s, "sections", FixedFormat(16, 15)))
+    assert best["levels_bits"] == 16
+    assert best["levels"]["risk"] == lv.risk
+    got = {r["name"]: r["bounded_input_gain"] for r in best["levels"]["registers"]}
+    assert got == pytest.approx({r.name: r.bounded_input_gain for r in lv.registers}, rel=1e-12)
+    code, out, err = _cli(capsys, "quantize", "cases/print_bed_heater.toml", "--bits", "16", "--structure", "sections")
+    assert code == 0, err
+    assert "Signal levels of the controller registers in the closed loop" in out and "Overflow risk:" in out
+
+
+def test_export_records_levels(capsys: pytest.CaptureFixture[str], tmp_path) -> None:
+    """`sampled export` prints the levels, gives them in JSON and writes them in the header comment."""
+    import json
+
+    code, out, err = _cli(capsys, "export", "cases/print_bed_heater.toml", "--format", "Q15", "-o", str(tmp_path),
+                          "--name", "bed", "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    assert data["levels"]["stable"] is True and data["levels"]["risk"] in ("none", "possible", "likely")
+    header = (tmp_path / "bed.h").read_text()
+    assert "signal levels in the closed loop" in header and f"overflow risk {data['levels']['risk']}" in header
+    code, out, err = _cli(capsys, "export", "cases/print_bed_heater.toml", "--format", "Q15", "-o", str(tmp_path / "t"))
+    assert code == 0, err
+    assert "Overflow risk:" in out

@@ -3,7 +3,10 @@
 The controller is rounded for the chosen structure and number format, the loop is judged with
 exactly the rounded coefficients (as `sampled quantize` does), and the generated code carries
 those coefficients and a comment block with the period, realisation, word length and verdict.
-Both files are built in memory first and written atomically.
+Both files are built in memory first and written atomically. The signal levels of every
+controller register in the closed loop (peak for a reference step, worst case for any reference
+bounded by the full scale of the signal format, against the register's limit; headroom in bits
+and overflow risk) are printed, given in --json as "levels" and recorded in the comment block.
 
 If the implemented loop is not stable or misses a requirement of the case, nothing is written
 and the exit status is 1; --force writes the files anyway (the verdict in their comment block
@@ -27,10 +30,12 @@ from pathlib import Path
 
 from sampled.casefile import load_case
 from sampled.commands.common import SAFETY_CAUTION, print_json, write_file_atomically
+from sampled.commands.quantize import render_levels
 from sampled.errors import InputError
 from sampled.export import LANGUAGES, number_format_from_text
 from sampled.export.c import export_c
 from sampled.fixedpoint import ROUNDINGS
+from sampled.levels import LoopLevels, closed_loop_levels
 from sampled.quantize import QuantizedRow, case_controller, judge_implemented
 from sampled.realisations import REALISATION_TITLES, REALISATIONS, implement
 from sampled.units import format_time
@@ -92,6 +97,18 @@ def verdict_text(row: QuantizedRow, has_requirements: bool) -> str:
     return "\n".join(lines)
 
 
+def levels_comment(levels: LoopLevels) -> str:
+    """Closed-loop register levels as plain lines for the generated comment block."""
+    if not levels.stable:
+        return "signal levels: unbounded (the loop is not stable)"
+    lines = [f"signal levels in the closed loop, reference amplitude {levels.reference_amplitude:.6g}:"]
+    for r in levels.registers:
+        lines.append(f"  {r.name}: step peak {r.step_value:.4g}, worst case {r.worst_case:.4g}, "
+                     f"limit {r.limit:.4g}, headroom {r.headroom_bits:+.2f} bits, overflow {r.risk}")
+    lines.append(f"overflow risk {levels.risk}")
+    return "\n".join(lines)
+
+
 def run(args: argparse.Namespace) -> int:
     fmt = number_format_from_text(args.format, "--format")
     limits = _limits(args.output_limits)
@@ -105,7 +122,9 @@ def run(args: argparse.Namespace) -> int:
     row = judge_implemented(spec, impl)
     has_req = spec.requirements.any()
     verdict = verdict_text(row, has_req)
-    files = export_c(impl, name=name, verdict=verdict, output_limits=limits)  # both texts before any write
+    levels = closed_loop_levels(spec, impl)
+    files = export_c(impl, name=name, verdict=verdict + "\n" + levels_comment(levels),
+                     output_limits=limits)  # both texts before any write
     passed = row.requirements_met
     write = passed or args.force
     written: list[str] = []
@@ -130,12 +149,14 @@ def run(args: argparse.Namespace) -> int:
             "implementation": impl.to_dict(),
             "row": row.to_dict(),
             "verdict_text": verdict,
+            "levels": levels.to_dict(),
             "caution": SAFETY_CAUTION,
         })
     else:
         print(f"{spec.title}: {REALISATION_TITLES[impl.realisation]} ({impl.realisation}), {number}, "
               f"period {format_time(spec.period_s)}")
         print("Implemented loop: " + verdict.replace("\n", "; "))
+        print("\n".join(render_levels(levels, indent="")))
         if written:
             for path in written:
                 print(f"wrote {path}")

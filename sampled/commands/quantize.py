@@ -8,6 +8,13 @@ table, the shortest word that keeps the loop stable and the shortest that meets 
 (from there up to the longest word tried, every word passes), with the stored coefficients and
 controller poles at that word. --json adds every row's coefficients, poles and zeros.
 
+For the best structure at its shortest word, the signal levels of every controller register in
+the closed loop: the peak for a reference step and the worst case for any reference bounded by
+the reference amplitude (the l1 norm of the impulse response from the reference), against the
+largest value the register's fixed-point format holds; the headroom in bits and the overflow risk.
+The reference amplitude is the full scale of the signal format (the largest reference the input
+word carries). --json gives them as "levels" on the best structure.
+
 Examples:
   sampled quantize cases/print_bed_heater.toml
   sampled quantize cases/notch_filter_fragile.toml --bits 12-24 --structure direct1,sections
@@ -20,12 +27,14 @@ states none) from some word length up to the longest word tried, 1 none does, 2 
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 
-from sampled.casefile import load_case
+from sampled.casefile import LoopSpec, load_case
 from sampled.commands.common import SAFETY_CAUTION, print_json
 from sampled.commands.render import fmt_db, fmt_deg, fmt_z, table
 from sampled.fixedpoint import ROUNDINGS
+from sampled.levels import LoopLevels, closed_loop_levels
 from sampled.quantize import (
     QuantizedRow,
     QuantizeResult,
@@ -79,17 +88,61 @@ def run(args: argparse.Namespace) -> int:
         result = quantize_loop(spec, words, structures, rounding=args.rounding, progress=progress)
     finally:
         progress.close()
+    levels = best_levels(spec, result)
     if args.json:
         out = result.to_dict()
+        if levels is not None:
+            best = result.best()
+            for s in out["structures"]:
+                if best is not None and s["name"] == best.name:
+                    s["levels"] = levels.to_dict()
+                    s["levels_bits"] = best.min_bits_requirements
         out["caution"] = SAFETY_CAUTION
         print_json(out)
     else:
-        print(render_quantize(result))
+        print(render_quantize(result, levels))
         print(SAFETY_CAUTION)
     return 0 if result.implementable else 1
 
 
+def best_levels(spec: LoopSpec, result: QuantizeResult) -> LoopLevels | None:
+    """Closed-loop register levels of the best structure at its shortest passing word."""
+    best = result.best()
+    if best is None:
+        return None
+    row = next((r for r in best.rows if r.bits == best.min_bits_requirements), None)
+    if row is None or row.implementation is None:
+        return None
+    return closed_loop_levels(spec, row.implementation)
+
+
 # ---- text ----------------------------------------------------------------------------------------
+
+def _level(x: float) -> str:
+    return f"{x:.4g}"
+
+
+def _bits(x: float) -> str:
+    return f"{x:+.2f}" if math.isfinite(x) else ("+inf" if x > 0 else "-inf")
+
+
+def render_levels(levels: LoopLevels, indent: str = "  ") -> list[str]:
+    """Short table of closed-loop register levels (step peak, worst case, limit, headroom, risk)."""
+    amp = f"reference amplitude {levels.reference_amplitude:.6g}"
+    if levels.disturbance_amplitude:
+        amp += f", input disturbance {levels.disturbance_amplitude:.6g}"
+    if not levels.stable:
+        return [f"{indent}Signal levels in the closed loop: unbounded (the loop is not stable, "
+                f"largest pole modulus {levels.loop_spectral_radius:.6f})."]
+    lines = [f"{indent}Signal levels of the controller registers in the closed loop ({amp}):"]
+    cells = [[r.name, r.label, _level(r.step_value), _level(r.worst_case), _level(r.limit), _bits(r.headroom_bits), r.risk]
+             for r in levels.registers]
+    lines += table(cells, ["register", "holds", "step peak", "worst case", "limit", "headroom bits", "risk"],
+                   indent=indent + "  ")
+    bound = "" if levels.converged else f" (impulse responses cut at {levels.samples} samples: worst cases are lower bounds)"
+    lines.append(f"{indent}  Overflow risk: {levels.risk}; smallest headroom {_bits(levels.headroom_bits)} bits{bound}.")
+    return lines
+
 
 def _radius(x: float | None) -> str:
     return "-" if x is None else f"{x:.6f}"
@@ -159,8 +212,8 @@ def _coefficient_lines(row: QuantizedRow) -> list[str]:
     return lines
 
 
-def render_quantize(result: QuantizeResult) -> str:
-    """Plain-text report of :func:`sampled.quantize.quantize_loop`."""
+def render_quantize(result: QuantizeResult, levels: LoopLevels | None = None) -> str:
+    """Plain-text report of :func:`sampled.quantize.quantize_loop` (``levels``: of the best structure)."""
     lines = [f"{result.title}" + (f"  ({result.case})" if result.case else "")]
     ref = result.reference
     period = format_time(result.period_s)
@@ -183,6 +236,10 @@ def render_quantize(result: QuantizeResult) -> str:
         shown = next(r for r in s.rows if r.bits == shown_bits)
         lines += _coefficient_lines(shown)
     lines += ["", _answer(result)]
+    best = result.best()
+    if levels is not None and best is not None:
+        lines += [f"At {best.min_bits_requirements} bits in {best.name}:"]
+        lines += render_levels(levels)
     return "\n".join(lines)
 
 
