@@ -198,10 +198,7 @@ class QuantizedRow:
             "spectral_radius": self.spectral_radius,
             "stability_distance": self.stability_distance,
             "controller_spectral_radius": self.controller_spectral_radius,
-            "gain_margin_db": None if m is None else m.gain_margin_db,
-            "phase_margin_deg": None if m is None else m.phase_margin_deg,
-            "delay_margin_s": None if m is None else m.delay_margin_s,
-            "sensitivity_peak": None if m is None else m.sensitivity_peak,
+            **_margin_values(m),
             "requirements_met": self.requirements_met,
             "requirements": [r.to_dict() for r in self.requirements],
             "max_coefficient_error": None if self.implementation is None else self.implementation.max_coefficient_error,
@@ -212,6 +209,12 @@ class QuantizedRow:
             "controller_zeros": impl.get("zeros", []),
             "delta_step": impl.get("delta_step"),
         }
+
+
+def _margin_values(m: Margins | None) -> dict[str, float | None]:
+    """The four headline margins of a row (None when they were not computed)."""
+    names = ("gain_margin_db", "phase_margin_deg", "delay_margin_s", "sensitivity_peak")
+    return {name: None if m is None else getattr(m, name) for name in names}
 
 
 @dataclass(frozen=True)
@@ -259,10 +262,7 @@ class ReferenceResult:
         return {
             "verdict": self.verdict,
             "spectral_radius": self.spectral_radius,
-            "gain_margin_db": None if m is None else m.gain_margin_db,
-            "phase_margin_deg": None if m is None else m.phase_margin_deg,
-            "delay_margin_s": None if m is None else m.delay_margin_s,
-            "sensitivity_peak": None if m is None else m.sensitivity_peak,
+            **_margin_values(m),
             "requirements_met": self.requirements_met,
             "requirements": [r.to_dict() for r in self.requirements],
         }

@@ -85,6 +85,18 @@ def table(rows: Sequence[Sequence[str]], header: Sequence[str] | None = None, in
     return out
 
 
+def cost_phrases(cost: dict[str, float | None]) -> list[str]:
+    """What going digital cost, as short phrases (``"2.55 dB of gain margin"``), shared by text and HTML."""
+    parts = []
+    if cost.get("gain_margin_db") is not None:
+        parts.append(f"{fmt_num(cost['gain_margin_db'], 3)} dB of gain margin")
+    if cost.get("phase_margin_deg") is not None:
+        parts.append(f"{fmt_num(cost['phase_margin_deg'], 3)} deg of phase margin")
+    if cost.get("delay_margin_s") is not None:
+        parts.append(f"{fmt_s(cost['delay_margin_s'])} of delay margin")
+    return parts
+
+
 def render_assessment(a: Assessment, max_poles: int = 8) -> str:
     spec = a.spec
     lines: list[str] = []
@@ -115,15 +127,8 @@ def render_assessment(a: Assessment, max_poles: int = 8) -> str:
         ["how judged", c.method if c else "-", d_how],
     ]
     lines.extend(table(rows, ["", "continuous design", "as implemented"]))
-    cost = a.cost()
-    if cost:
-        parts = []
-        if cost.get("gain_margin_db") is not None:
-            parts.append(f"{fmt_num(cost['gain_margin_db'], 3)} dB of gain margin")
-        if cost.get("phase_margin_deg") is not None:
-            parts.append(f"{fmt_num(cost['phase_margin_deg'], 3)} deg of phase margin")
-        if cost.get("delay_margin_s") is not None:
-            parts.append(f"{fmt_s(cost['delay_margin_s']) if cost['delay_margin_s'] is not None else '-'} of delay margin")
+    parts = cost_phrases(a.cost())
+    if parts:
         lines.append("")
         lines.append("Going digital cost: " + ", ".join(parts) + " (continuous minus implemented; negative = gained).")
     if a.requirements:

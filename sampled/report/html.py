@@ -29,7 +29,7 @@ import numpy as np
 
 from sampled import SAFETY_CAUTION, __version__
 from sampled.casefile import LoopSpec
-from sampled.commands.render import REQUIREMENT_LABELS, fmt_db, fmt_deg, fmt_num, fmt_s, margin_cells
+from sampled.commands.render import REQUIREMENT_LABELS, cost_phrases, fmt_db, fmt_deg, fmt_num, fmt_s, margin_cells
 from sampled.errors import InputError
 from sampled.loop import Assessment, assess, compute_delay_s
 from sampled.units import format_frequency, format_time
@@ -299,16 +299,9 @@ def _verdicts(a: Assessment) -> str:
             + (" (delay by Pad&eacute; approximation)" if c.poles_approximated else "") + "</p>"
             f"<p class=\"muted\">judged by {_e(c.method)}</p></div>"
         )
-    cost = a.cost()
+    bits = cost_phrases(a.cost())
     cost_html = ""
-    if cost:
-        bits = []
-        if cost.get("gain_margin_db") is not None:
-            bits.append(f"{fmt_num(cost['gain_margin_db'], 3)} dB of gain margin")
-        if cost.get("phase_margin_deg") is not None:
-            bits.append(f"{fmt_num(cost['phase_margin_deg'], 3)} deg of phase margin")
-        if cost.get("delay_margin_s") is not None:
-            bits.append(f"{fmt_s(cost['delay_margin_s'])} of delay margin")
+    if bits:
         cost_html = ("<p><strong>What going digital cost:</strong> " + _e(", ".join(bits))
                      + " (continuous minus implemented; negative means gained).</p>")
     return f'<div class="cards">{cont_card}{digital_card}</div>{cost_html}'
@@ -368,7 +361,7 @@ def _warnings(a: Assessment) -> str:
 
 
 def _poles(a: Assessment) -> str:
-    from sampled.report.figures import closed_loop_zeros
+    from sampled.report.figures import closed_loop_zeros, mapped_continuous_poles
 
     d, c, t = a.digital, a.continuous, a.period_s
     rows = []
@@ -381,11 +374,9 @@ def _poles(a: Assessment) -> str:
     if zeros.size:
         out += '<p class="muted">Zeros: ' + ", ".join(_fmt_z(complex(z)) for z in zeros) + "</p>"
     if c is not None:
-        crow = []
-        for s in c.poles:
-            s = complex(s)
-            zt = complex(np.exp(s * t)) if s.real * t < 700 else complex(math.inf)
-            crow.append([_fmt_z(s), _fmt_z(zt)])
+        mapped = mapped_continuous_poles(a)
+        assert mapped is not None
+        crow = [[_fmt_z(complex(s)), _fmt_z(complex(zt))] for s, zt in zip(c.poles, mapped)]
         label = " (the transport delay by a Pad&eacute; approximation)" if c.poles_approximated else ""
         out += f"<h3>Continuous design (s plane){label}</h3>" + _table(["pole s [1/s]", "mapped z = e<sup>sT</sup>"], crow)
     return out
