@@ -1,4 +1,7 @@
-"""Case files: every key read as documented, every bad input refused in one line naming file and key."""
+"""Case files: every key read as documented, every bad input refused in one line naming file and key.
+
+Unit conversions checked here are SI definitions (1 Hz = 2 pi rad/s; common practice, no source);
+schema validity is checked with the jsonschema library (reference implementation).
 
 from __future__ import annotations
 
