@@ -2,6 +2,7 @@
 
 Unit conversions checked here are SI definitions (1 Hz = 2 pi rad/s; common practice, no source);
 schema validity is checked with the jsonschema library (reference implementation).
+"""
 
 from __future__ import annotations
 
